@@ -1,0 +1,51 @@
+"""The ``pumpsim`` command: one program, one subcommand per job.
+
+Exit codes (``files.md``): 0 success, 2 bad input (the message names file,
+table and key), 1 anything else. No traceback reaches the user unless
+``PUMPSIM_DEBUG=1`` is set.
+"""
+
+import argparse
+import os
+import sys
+
+from . import __version__
+from .commands import COMMANDS
+from .errors import InputError
+
+
+def build_parser():
+    parser = argparse.ArgumentParser(
+        prog="pumpsim",
+        description="Optical pumping of atomic beams: multilevel rate equations averaged "
+                    "over the beam's speeds, angles and offsets.")
+    parser.add_argument("--version", action="version", version=f"pumpsim {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    for module in COMMANDS:
+        module.add_parser(sub)
+    return parser
+
+
+def main(argv=None):
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help(sys.stderr)
+        return 2
+    try:
+        return args.handler(args) or 0
+    except InputError as exc:
+        print(f"pumpsim: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("pumpsim: interrupted", file=sys.stderr)
+        return 1
+    except Exception as exc:  # the contract: exit 1, a message, no traceback
+        if os.environ.get("PUMPSIM_DEBUG"):
+            raise
+        print(f"pumpsim: failed: {type(exc).__name__}: {exc}", file=sys.stderr)
+        return 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,69 @@
+"""``pumpsim check FILE``: validate a scheme or a setup and summarise it."""
+
+from ..beam_shapes import shape_of
+from ..lines import line
+from ..model import initial_level_populations
+from ..safety import cautions
+from ..scheme_file import load_scheme
+from ..tomlread import read_toml
+from .common import print_json
+from .info import format_info, scheme_info
+
+
+def add_parser(sub):
+    p = sub.add_parser("check", help="validate a scheme or setup file and summarise it",
+                       description="Validate a scheme or setup. A setup's summary lists levels, "
+                                   "lines (wavelength, cross-section, saturation intensity) and "
+                                   "beams (peak intensity, saturation parameter).")
+    p.add_argument("file", help="scheme or setup TOML file")
+    p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
+    p.set_defaults(handler=handle)
+
+
+def setup_info(setup):
+    """Summary of a setup (file units)."""
+    beams = []
+    for b in setup.beams:
+        ln = line(setup.scheme, b.lower, b.upper)
+        peak = shape_of(b).peak_intensity
+        beams.append({
+            "name": b.name, "lower": b.lower, "upper": b.upper,
+            "wavelength_nm": ln.wavelength * 1e9, "power_mW": b.power * 1e3,
+            "peak_intensity_mW_cm2": peak * 0.1,
+            "saturation_parameter": peak / ln.saturation_intensity(),
+            "sigma0_m2": ln.sigma0(b.linewidth), "passes": b.passes})
+    init = initial_level_populations(setup)
+    return {"kind": "setup", "target": setup.target, "source": setup.source.kind,
+            "initial_populations": dict(zip(setup.scheme.ids, map(float, init))),
+            "beams": beams, "scheme": scheme_info(setup.scheme), "cautions": cautions(setup)}
+
+
+def handle(args):
+    from ..setup_file import setup_from_document
+
+    doc, text = read_toml(args.file)
+    if "species" in doc:
+        info = dict(scheme_info(load_scheme(args.file)), kind="scheme")
+        if args.json:
+            print_json(info)
+        else:
+            print(f"{args.file}: a valid scheme\n")
+            print(format_info(info))
+        return 0
+    info = setup_info(setup_from_document(doc, str(args.file), text_=text))
+    if args.json:
+        print_json(info)
+        return 0
+    print(f"{args.file}: a valid setup (target '{info['target']}', {info['source']} source)\n")
+    print(format_info(info["scheme"]))
+    print(f"\n  {'beam':<10} {'line':<12} {'λ (nm)':>9} {'power (mW)':>11} "
+          f"{'peak I (mW/cm²)':>16} {'s0':>8} {'passes':>7}")
+    for b in info["beams"]:
+        print(f"  {b['name']:<10} {b['lower'] + ' → ' + b['upper']:<12} {b['wavelength_nm']:9.3f} "
+              f"{b['power_mW']:11.4g} {b['peak_intensity_mW_cm2']:16.4g} "
+              f"{b['saturation_parameter']:8.3g} {b['passes']:7d}")
+    print("\ninitial populations: " + ", ".join(f"{k} {v:.4f}" for k, v in info["initial_populations"].items()))
+    print()
+    for w in info["cautions"]:
+        print("CAUTION: " + w)
+    return 0

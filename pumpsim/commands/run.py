@@ -1,0 +1,68 @@
+"""``pumpsim run [SETUP]``: one simulation, a readable summary or JSON, optionally HDF5."""
+
+import shlex
+import sys
+
+from ..lines import line
+from ..safety import cautions
+from ..simulate import simulate
+from .common import add_setup_arguments, print_json, setup_from_args, status
+
+
+def add_parser(sub):
+    p = sub.add_parser("run", help="simulate one setup (the bundled demo if none is given)",
+                       description="Simulate one setup and print the transfer fraction, final "
+                                   "populations, photons and deflection per beam.")
+    add_setup_arguments(p, optional=True)
+    p.add_argument("--out", metavar="FILE.h5", help="also write the full result to HDF5")
+    p.set_defaults(handler=handle)
+
+
+def handle(args):
+    setup = setup_from_args(args)
+    result = simulate(setup, progress=lambda m: status(f"  {m}"))
+    if args.out:
+        from ..h5out import write_result
+
+        write_result(args.out, result, "pumpsim " + " ".join(shlex.quote(a) for a in sys.argv[1:]))
+    warnings = cautions(setup)
+    if args.json:
+        out = result.to_dict()
+        out["cautions"] = warnings
+        print_json(out)
+        for w in warnings:
+            status(w)
+    else:
+        print(summary(result))
+        print()
+        for w in warnings:
+            print("CAUTION: " + w)
+    if args.out:
+        status(f"wrote {args.out}")
+    return 0
+
+
+def summary(result):
+    """Readable multi-line summary of a result."""
+    s = result.setup
+    n = result.numerics
+    lines = [f"setup   {s.path}", f"species {s.scheme.name}",
+             f"transfer fraction into '{s.target}': {result.transfer_fraction:.4f}"
+             f"  (error estimate {n.error_estimate['total']:.1e})", "", "final populations:"]
+    for lid, p in result.final_populations.items():
+        lines.append(f"  {lid:<10} {p:10.6f}")
+    lines += ["", f"  {'beam':<10} {'line':<12} {'λ (nm)':>9} {'power (mW)':>11} "
+              f"{'peak I (mW/cm²)':>16} {'s0':>8} {'photons/atom':>13} {'deflection (mrad)':>18}"]
+    info = result.beam_summary()
+    for b in s.beams:
+        ln = line(s.scheme, b.lower, b.upper)
+        lines.append(
+            f"  {b.name:<10} {b.lower + ' → ' + b.upper:<12} {ln.wavelength * 1e9:9.3f} "
+            f"{b.power * 1e3:11.4g} {info[b.name]['peak_intensity_mW_cm2']:16.4g} "
+            f"{info[b.name]['saturation_parameter']:8.3g} {result.photons_per_atom[b.name]:13.4f} "
+            f"{result.deflection[b.name] * 1e3:18.5f}")
+    state = "converged" if n.converged else "NOT CONVERGED to the tolerance"
+    lines += ["", f"numerics: {n.solver}, {n.steps} steps along z, {n.nodes} ensemble nodes "
+              f"({n.nodes_evaluated} evaluated), tolerance {n.tolerance:g}, {state}, "
+              f"{n.seconds:.2f} s"]
+    return "\n".join(lines)

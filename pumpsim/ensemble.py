@@ -1,0 +1,263 @@
+"""Flux-weighted means over speed, angle and offset, refined until converged.
+
+The work is split in three, each with its share of the user's tolerance:
+
+1. the integration grid along z, refined (steps per waist doubled) on a few
+   probe atoms at the extremes of the ensemble until the final states stop
+   changing (``ODE_SHARE``);
+2. the angle and offset rules, doubled until the means stop changing
+   (``INNER_SHARE``);
+3. the speed panels, split where the Gauss-Kronrod difference is largest
+   until the summed estimate is below ``SPEED_SHARE``. Panel edges are put
+   at the speeds a beam crossing at an angle selects, so a narrow velocity
+   class cannot fall between nodes.
+
+Every evaluation integrates its nodes together in chunks of ``CHUNK``.
+"""
+
+import math
+import time
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import sparse
+
+from .quadrature import half_normal_rule, normal_rule, speed_panel
+from .sources import speeds_of
+
+ODE_SHARE, INNER_SHARE, SPEED_SHARE = 0.1, 0.2, 0.5
+CHUNK = 2048
+START_PER_WAIST, MAX_PER_WAIST = 4, 1024
+ANGLE_RULES, OFFSET_RULES = (6, 12, 24, 48, 96), (3, 6, 12, 24, 48)
+START_PANELS = 6
+DEFLECTION_FLOOR = 1e-7  # rad; below this a deflection is judged absolutely
+
+
+@dataclass
+class Evaluated:
+    """Per-node values of one evaluation."""
+
+    v: np.ndarray
+    a: np.ndarray
+    y0: np.ndarray
+    weight: np.ndarray
+    values: np.ndarray  # (n, C): level populations, photons, deflection
+    profile: np.ndarray  # (groups, k, L + 1) weighted sums along the grid
+
+
+@dataclass
+class EnsembleAverage:
+    """Ensemble means and the numerics behind them."""
+
+    values: np.ndarray
+    profile: np.ndarray
+    z: np.ndarray
+    nodes: Evaluated
+    per_waist: float
+    errors: dict
+    nodes_evaluated: int
+    converged: bool
+    rules: dict
+    seconds: float
+
+
+class EnsembleIntegrator:
+    """Adaptive ensemble average of one :class:`~pumpsim.model.RateModel`.
+
+    Parameters
+    ----------
+    model : RateModel
+    propagator : Propagator
+    tolerance : float
+        Absolute tolerance on populations (relative on photons and deflection).
+    max_nodes : int
+        Refinement stops (unconverged) rather than exceed this many nodes.
+    progress : callable, optional
+        ``progress(message)`` after each refinement round.
+    """
+
+    def __init__(self, model, propagator, tolerance, max_nodes, progress=None):
+        self.model, self.propagator = model, propagator
+        self.tol, self.max_nodes = tolerance, max_nodes
+        self.progress = progress or (lambda message: None)
+        self.speeds = speeds_of(model.setup.source, model.setup.scheme.mass)
+        self.n_levels = len(model.setup.scheme.levels) + 1
+        self.n_beams = len(model.setup.beams)
+        self.evaluated = 0
+
+    # -- evaluation ---------------------------------------------------------
+    def _values(self, v, final):
+        levels, photons, deflection = self.model.outputs(v, final)
+        return np.concatenate([levels, photons, deflection], axis=1)
+
+    def scale(self, values):
+        """Per-component scale turning differences into tolerance units."""
+        L, B = self.n_levels, self.n_beams
+        s = np.ones(values.shape[-1])
+        s[L:L + B] = np.maximum(1.0, np.abs(values[L:L + B]))
+        s[L + B:] = np.maximum(DEFLECTION_FLOOR, np.abs(values[L + B:]))
+        return s
+
+    def evaluate(self, v, a, y0, weight, groups, n_groups, z):
+        """Propagate nodes (in chunks) and return their values and grouped profiles."""
+        n = len(v)
+        values = np.empty((n, self.n_levels + 2 * self.n_beams))
+        profile = np.zeros((n_groups, len(z), self.n_levels))
+        S = self.model.n_states
+        for lo in range(0, n, CHUNK):
+            sl = slice(lo, min(lo + CHUNK, n))
+            problem = self.model.problem(v[sl], a[sl], y0[sl])
+            m = sl.stop - sl.start
+            reducer = sparse.csr_matrix((weight[sl], (groups[sl], np.arange(m))),
+                                        shape=(n_groups, m))
+            traj = self.propagator.propagate(problem, z, reducer)
+            values[sl] = self._values(v[sl], traj.final)
+            profile += self.model.basis.to_levels(traj.reduced[..., :S]).transpose(1, 0, 2)
+        self.evaluated += n
+        return Evaluated(v, a, y0, weight, values, profile)
+
+    # -- 1. grid along z ----------------------------------------------------
+    def probe_speeds(self):
+        if self.speeds.single_speed is not None:
+            return np.array([self.speeds.single_speed])
+        lo, hi = self.speeds.support()
+        v = np.linspace(lo, hi, 4001)
+        cdf = np.cumsum(self.speeds.density(v))
+        cdf /= cdf[-1]
+        return np.interp([1e-3, 0.5, 1 - 1e-3], cdf, v)
+
+    def converge_grid(self):
+        """Steps per waist at which probe atoms' final states agree to the ODE share."""
+        src = self.model.setup.source
+        v = self.probe_speeds()
+        a = np.array([0.0, 2.0, -2.0]) * src.divergence_rms
+        V, A = (x.ravel() for x in np.meshgrid(v, a))
+        problem = self.model.problem(V, A, np.zeros_like(V))
+        if not getattr(self.propagator, "batched", True):
+            return START_PER_WAIST, 0.0
+        per = START_PER_WAIST
+        prev = self._values(V, self.propagator.propagate(problem, self.model.grid(per)).final)
+        while True:
+            fine = self._values(V, self.propagator.propagate(problem, self.model.grid(2 * per)).final)
+            err = np.max(np.abs(fine - prev) / self.scale(fine.mean(axis=0))) / 3.0
+            per *= 2
+            self.progress(f"grid: {per} steps per waist, error estimate {err:.2g}")
+            if err <= ODE_SHARE * self.tol or per >= MAX_PER_WAIST:
+                return per, float(err)
+            prev = fine
+
+    # -- 2 and 3. quadrature --------------------------------------------------
+    def breakpoints(self):
+        """Speed-panel edges: equal panels plus the velocity classes angled beams select."""
+        lo, hi = self.speeds.support()
+        edges = list(np.linspace(lo, hi, START_PANELS + 1))
+        m = self.model
+        for t, (i, sign) in enumerate(m.terms):
+            b, ln = m.setup.beams[i], m.lines[i]
+            kc = sign * ln.k * math.cos(b.angle)
+            if abs(math.cos(b.angle)) < 1e-6:
+                continue
+            gamma = ln.gamma(b.linewidth)
+            s0 = m.shapes[i].peak_intensity / ln.saturation_intensity()
+            width = gamma * math.sqrt(1 + s0) / abs(kc)
+            for c in m.basis.couplings(b):
+                vr = 2 * math.pi * (b.detuning - c.shift) / kc
+                for f in (-8, -3, -1, 0, 1, 3, 8):
+                    x = vr + f * width
+                    if lo < x < hi:
+                        edges.append(x)
+        return np.unique(edges)
+
+    def panel_nodes(self, panels, rule):
+        """All nodes of some speed panels under an inner (angle, offset) rule."""
+        a_in, y_in, w_in = rule
+        vs, wk, wg = zip(*(speed_panel(self.speeds, lo, hi) for lo, hi in panels))
+        vs, wk, wg = np.concatenate(vs), np.concatenate(wk), np.concatenate(wg)
+        k = len(a_in)
+        V = np.repeat(vs, k)
+        WK = np.repeat(wk, k) * np.tile(w_in, len(vs))
+        WG = np.repeat(wg, k) * np.tile(w_in, len(vs))
+        group = np.repeat(np.arange(len(panels)), 15 * k)
+        return V, np.tile(a_in, len(vs)), np.tile(y_in, len(vs)), WK, WG, group
+
+    def inner_rule(self, n_angle, n_offset):
+        src = self.model.setup.source
+        a, wa = normal_rule(n_angle, src.divergence_rms)
+        y, wy = half_normal_rule(n_offset, src.width_rms)
+        A, Y = np.meshgrid(a, y, indexing="ij")
+        return A.ravel(), Y.ravel(), np.outer(wa, wy).ravel()
+
+    def run_panels(self, panels, rule, z):
+        """Evaluate panels; return per-panel Kronrod values, errors, profiles and nodes."""
+        if self.speeds.single_speed is not None:
+            a, y, w = rule
+            v = np.full(len(a), self.speeds.single_speed)
+            ev = self.evaluate(v, a, y, w, np.zeros(len(a), dtype=int), 1, z)
+            K = w @ ev.values
+            return [dict(lo=v[0], hi=v[0], K=K, err=0.0, profile=ev.profile[0], ev=ev)]
+        V, A, Y, WK, WG, group = self.panel_nodes(panels, rule)
+        ev = self.evaluate(V, A, Y, WK, group, len(panels), z)
+        K = sparse.csr_matrix((WK, (group, np.arange(len(V)))), shape=(len(panels), len(V))) @ ev.values
+        G = sparse.csr_matrix((WG, (group, np.arange(len(V)))), shape=(len(panels), len(V))) @ ev.values
+        out = []
+        for p, (lo, hi) in enumerate(panels):
+            sel = group == p
+            sub = Evaluated(V[sel], A[sel], Y[sel], WK[sel], ev.values[sel], None)
+            out.append(dict(lo=lo, hi=hi, K=K[p], G=G[p], profile=ev.profile[p], ev=sub))
+        total = K.sum(axis=0)
+        for rec in out:
+            rec["err"] = float(np.max(np.abs(rec["K"] - rec["G"]) / self.scale(total)))
+        return out
+
+    def run(self) -> EnsembleAverage:
+        t0 = time.perf_counter()
+        per, ode_err = self.converge_grid()
+        z = self.model.grid(per)
+        src = self.model.setup.source
+        sizes = {"angle": 1 if src.divergence_rms == 0 else ANGLE_RULES[0],
+                 "offset": 1 if src.width_rms == 0 else OFFSET_RULES[0]}
+        single = self.speeds.single_speed is not None
+        edges = [0, 0] if single else self.breakpoints()
+        panels = list(zip(edges[:-1], edges[1:]))
+        recs = self.run_panels(panels, self.inner_rule(sizes["angle"], sizes["offset"]), z)
+        inner_err = 0.0
+        for dim, ladder in (("angle", ANGLE_RULES), ("offset", OFFSET_RULES)):
+            if sizes[dim] == 1:
+                continue
+            for nxt in ladder[1:]:
+                trial = dict(sizes, **{dim: nxt})
+                recs2 = self.run_panels(panels, self.inner_rule(trial["angle"], trial["offset"]), z)
+                tot, tot2 = (sum(r["K"] for r in rs) for rs in (recs, recs2))
+                err = float(np.max(np.abs(tot2 - tot) / self.scale(tot2)))
+                self.progress(f"{dim} rule {sizes[dim]} -> {nxt} nodes: change {err:.2g}")
+                if err <= 0.5 * INNER_SHARE * self.tol:
+                    inner_err += err
+                    break
+                sizes, recs = trial, recs2
+            else:
+                inner_err += err
+        rule = self.inner_rule(sizes["angle"], sizes["offset"])
+        converged = ode_err <= ODE_SHARE * self.tol and inner_err <= INNER_SHARE * self.tol
+        speed_err = sum(r["err"] for r in recs)
+        while speed_err > SPEED_SHARE * self.tol:
+            limit = SPEED_SHARE * self.tol / len(recs)
+            worst = max(r["err"] for r in recs)
+            split = [r for r in recs if r["err"] > limit or r["err"] == worst]
+            new_panels = [p for r in split for p in ((r["lo"], 0.5 * (r["lo"] + r["hi"])),
+                                                      (0.5 * (r["lo"] + r["hi"]), r["hi"]))]
+            if self.evaluated + len(new_panels) * 15 * len(rule[0]) > self.max_nodes:
+                converged = False
+                break
+            keep = [r for r in recs if not any(r is s for s in split)]
+            recs = sorted(keep + self.run_panels(new_panels, rule, z), key=lambda r: r["lo"])
+            speed_err = sum(r["err"] for r in recs)
+            self.progress(f"speeds: {len(recs)} panels, error estimate {speed_err:.2g}")
+        values = sum(r["K"] for r in recs)
+        profile = sum(r["profile"] for r in recs)
+        nodes = Evaluated(*(np.concatenate([getattr(r["ev"], f) for r in recs])
+                            for f in ("v", "a", "y0", "weight", "values")), None)
+        errors = {"ode": ode_err, "angle_offset": inner_err, "speed": speed_err,
+                  "total": ode_err + inner_err + speed_err}
+        return EnsembleAverage(values, profile, z, nodes, per, errors, self.evaluated,
+                               converged and speed_err <= SPEED_SHARE * self.tol,
+                               dict(sizes, speed_panels=len(recs)), time.perf_counter() - t0)

@@ -1,0 +1,91 @@
+"""Matrix exponentials of many small rate generators at once.
+
+For a Metzler matrix ``X`` (off-diagonal entries >= 0: a rate generator,
+possibly with extra non-negative columns) write ``X = Z - mu I`` with
+``mu = max(-diag X)``, so that ``Z >= 0`` element-wise and
+``exp(X) = exp(-mu) exp(Z)``. After scaling ``X`` by ``2**-s`` so that
+``mu <= THETA``, the Taylor series of ``exp(Z)`` has only non-negative terms
+(uniformisation: W. K. Grassmann, "Transient solutions in Markovian queueing
+systems", Comput. Oper. Res. 4 (1977) 47), so there is no cancellation, the
+truncation error is below 1e-17 relative, and ``s`` squarings of a
+non-negative matrix stay non-negative. Populations computed with it can
+never go negative, however stiff the decays.
+
+Vectorised over a stack: each matrix gets its own ``s``, and only those that
+need it are squared. Checked against ``scipy.linalg.expm`` in the tests;
+scipy's general-purpose routine costs tens of microseconds per small matrix,
+this one a few.
+"""
+
+import math
+
+import numpy as np
+
+THETA = 0.5  # largest scaled decay rate; with ||Z|| <= 2 THETA, 1/19! < 1e-17
+DEGREE = 18
+_COEF = [1.0 / math.factorial(k) for k in range(DEGREE + 1)]
+_BLOCK = 4  # Paterson-Stockmeyer block size
+
+
+def _taylor(Z):
+    """``sum_k Z^k / k!`` to DEGREE by Paterson-Stockmeyer (7 matrix products)."""
+    m = Z.shape[-1]
+    idx = np.arange(m)
+    powers = [None, Z]
+    for _ in range(2, _BLOCK + 1):
+        powers.append(powers[-1] @ Z)
+    top = powers[_BLOCK]
+
+    def block(start):
+        b = np.zeros_like(Z)
+        for j in range(1, _BLOCK):
+            if start + j <= DEGREE:
+                b += _COEF[start + j] * powers[j]
+        b[:, idx, idx] += _COEF[start]
+        return b
+
+    starts = list(range(0, DEGREE + 1, _BLOCK))
+    out = block(starts[-1])
+    for start in reversed(starts[:-1]):
+        out = out @ top
+        out += block(start)
+    return out
+
+
+def expm_stack(X):
+    """exp of each Metzler matrix in a stack.
+
+    Parameters
+    ----------
+    X : ndarray, shape (n, m, m)
+        Off-diagonal entries must be >= 0 (rate generators).
+
+    Returns
+    -------
+    ndarray, shape (n, m, m)
+        Element-wise non-negative.
+    """
+    X = np.asarray(X, dtype=float)
+    diag = np.einsum("nii->ni", X)
+    mu = np.maximum(-diag.min(axis=1), 0.0)
+    with np.errstate(divide="ignore"):
+        s = np.where(mu > THETA, np.ceil(np.log2(mu / THETA)), 0.0)
+    scale = np.exp2(-s)
+    mu = mu * scale
+    Z = X * scale[:, None, None]
+    idx = np.arange(X.shape[-1])
+    Z[:, idx, idx] += mu[:, None]
+    np.maximum(Z, 0.0, out=Z)  # round-off only: Z is non-negative by construction
+    E = _taylor(Z) * np.exp(-mu)[:, None, None]
+    if not s.any():
+        return E
+    # square in order of decreasing s, so that each round works on a prefix
+    order = np.argsort(-s, kind="stable")
+    E = E[order]
+    counts = np.bincount(s.astype(int), minlength=int(s.max()) + 1)
+    remaining = len(s) - np.cumsum(counts)  # matrices that need more than j squarings
+    for c in remaining[:-1]:
+        E[:c] = E[:c] @ E[:c]
+    out = np.empty_like(E)
+    out[order] = E
+    return out

@@ -1,0 +1,91 @@
+"""Write a result to HDF5 (layout documented in the README).
+
+The file is written under a temporary name and renamed when complete, so an
+interrupted run never leaves a file that looks complete; the root attribute
+``complete`` is set last as a second guard.
+"""
+
+import datetime
+import os
+from pathlib import Path
+
+import h5py
+import numpy as np
+
+from . import __version__
+from .setup_file import setup_to_toml
+
+STR = h5py.string_dtype()
+
+
+def _text(group, name, value):
+    group.create_dataset(name, data=value if value is not None else "", dtype=STR)
+
+
+def write_inputs(f, setup):
+    """Inputs verbatim (setup and scheme files) and as run (after overrides)."""
+    g = f.create_group("inputs")
+    _text(g, "setup_toml", setup.text)
+    _text(g, "scheme_toml", setup.scheme.text)
+    _text(g, "setup_as_run_toml", setup_to_toml(setup))
+    g.attrs["setup_path"] = str(setup.path or "")
+    g.attrs["scheme_path"] = str(setup.scheme.path or "")
+
+
+def write_result(path, result, command=""):
+    """Write one simulation result to ``path`` atomically.
+
+    Parameters
+    ----------
+    path : str or Path
+    result : Result
+    command : str
+        The command line that produced it, stored as an attribute.
+    """
+    path = Path(path)
+    tmp = path.with_name(path.name + ".partial")
+    setup = result.setup
+    beams = [b.name for b in setup.beams]
+    with h5py.File(tmp, "w") as f:
+        f.attrs["pumpsim_version"] = __version__
+        f.attrs["created_utc"] = datetime.datetime.now(datetime.timezone.utc).isoformat()
+        f.attrs["command"] = command
+        f.attrs["kind"] = "run"
+        f.attrs["complete"] = False
+        write_inputs(f, setup)
+        r = f.create_group("results")
+        r.attrs["target"] = setup.target
+        r.attrs["transfer_fraction"] = result.transfer_fraction
+        d = r.create_dataset("final_populations", data=[result.final_populations[k] for k in result.levels])
+        d.attrs["levels"] = list(result.levels)
+        d.attrs["units"] = "fraction"
+        for name, values, unit in (
+                ("photons_per_atom", [result.photons_per_atom[b] for b in beams], "photons"),
+                ("deflection_mrad", [1e3 * result.deflection[b] for b in beams], "mrad")):
+            d = r.create_dataset(name, data=np.array(values, dtype=float))
+            d.attrs["beams"] = beams
+            d.attrs["units"] = unit
+        p = f.create_group("profile")
+        p.create_dataset("z_mm", data=result.z * 1e3).attrs["units"] = "mm"
+        d = p.create_dataset("populations", data=result.profile)
+        d.attrs["levels"] = list(result.levels)
+        d.attrs["units"] = "fraction"
+        n = f.create_group("nodes")
+        nodes, L, B = result.nodes, len(result.levels), len(beams)
+        for name, data, unit in (("speed_m_s", nodes.v, "m/s"), ("angle_mrad", nodes.a * 1e3, "mrad"),
+                                 ("offset_mm", nodes.y0 * 1e3, "mm"), ("weight", nodes.weight, "1"),
+                                 ("populations", nodes.values[:, :L], "fraction"),
+                                 ("photons", nodes.values[:, L:L + B], "photons"),
+                                 ("deflection_mrad", nodes.values[:, L + B:] * 1e3, "mrad")):
+            n.create_dataset(name, data=data, compression="gzip").attrs["units"] = unit
+        n.attrs["levels"] = list(result.levels)
+        n.attrs["beams"] = beams
+        num = f.create_group("numerics")
+        for k, v in result.numerics.to_dict().items():
+            if isinstance(v, dict):
+                for kk, vv in v.items():
+                    num.attrs[f"{k}.{kk}"] = vv
+            else:
+                num.attrs[k] = v
+        f.attrs["complete"] = True
+    os.replace(tmp, path)

@@ -1,0 +1,159 @@
+"""The setup's numeric and text fields, declared once as data.
+
+The setup loader, ``--set`` overrides, the TOML writer and the desktop window
+all read this table; nothing else lists the fields. Each :class:`Field` knows
+its file key (unit in the suffix), the SI attribute it fills and the scale
+between the two, its default, its physical bounds and how a slider should
+span it.
+"""
+
+import math
+from dataclasses import dataclass
+
+REQUIRED = object()
+
+
+@dataclass(frozen=True)
+class Field:
+    """One setup value.
+
+    Parameters
+    ----------
+    table : str
+        ``"source"``, ``"beam"``, ``"numerics"`` or ``""`` for the top level.
+    key : str
+        Key in the file, unit in the suffix (``power_mW``).
+    attr : str
+        Attribute of the dataclass it fills (SI).
+    unit : str
+        Unit as shown to people (``"mW"``); ``""`` for pure numbers.
+    scale : float
+        SI value = file value * scale.
+    kind : type
+        ``float``, ``int`` or ``str``.
+    default : object
+        File-unit default, :data:`REQUIRED`, or ``None`` (optional, no value).
+    low, high : float
+        Allowed range in file units (``None``: unbounded).
+    low_open : bool
+        ``low`` itself is not allowed (strictly greater).
+    label : str
+        Plain words for the window and summaries.
+    span : tuple
+        Slider range in file units; ``log`` a logarithmic slider.
+    choices : tuple
+        Allowed strings for text fields.
+    """
+
+    table: str
+    key: str
+    attr: str
+    unit: str
+    scale: float
+    kind: type
+    default: object
+    label: str
+    low: float | None = None
+    high: float | None = None
+    low_open: bool = False
+    span: tuple = ()
+    log: bool = False
+    choices: tuple = ()
+
+    def check(self, value):
+        """Return the reason ``value`` (file units) is not allowed, or ``None``."""
+        if self.kind is str:
+            if not isinstance(value, str):
+                return f"must be text, got {type(value).__name__} {value!r}"
+            if self.choices and value not in self.choices:
+                return f"must be one of {', '.join(self.choices)}; got {value!r}"
+            return None
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            return f"must be a number, got {type(value).__name__} {value!r}"
+        if self.kind is int and not float(value).is_integer():
+            return f"must be a whole number, got {value!r}"
+        if not math.isfinite(value):
+            return f"must be finite, got {value!r}"
+        if self.low is not None:
+            if self.low_open and value <= self.low:
+                return f"must be > {self.low:g} {self.unit}".rstrip() + f", got {value!r}"
+            if value < self.low:
+                return f"must be >= {self.low:g} {self.unit}".rstrip() + f", got {value!r}"
+        if self.high is not None and value > self.high:
+            return f"must be <= {self.high:g} {self.unit}".rstrip() + f", got {value!r}"
+        return None
+
+    def to_si(self, value):
+        if self.kind is str:
+            return value
+        if self.kind is int:
+            return int(value)
+        return float(value) * self.scale
+
+    def from_si(self, value):
+        """File-unit value of an SI value, rounded to 15 digits so that
+        decimal values typed by a user survive a load/save round trip."""
+        if value is None or self.kind is str:
+            return value
+        if self.kind is int:
+            return int(value)
+        return float(f"{value / self.scale:.15g}")
+
+
+def _f(table, key, attr, unit, scale, default, label, **kw):
+    return Field(table, key, attr, unit, scale, kw.pop("kind", float), default, label, **kw)
+
+
+MM, MRAD, MHZ, MW, DEG = 1e-3, 1e-3, 1e6, 1e-3, math.pi / 180.0
+
+SOURCE_FIELDS = (
+    _f("source", "kind", "kind", "", 1, REQUIRED, "source kind", kind=str,
+       choices=("effusive", "gaussian", "monoenergetic")),
+    _f("source", "temperature_K", "temperature", "K", 1.0, None, "source temperature",
+       low=0.0, low_open=True, span=(10.0, 3000.0)),
+    _f("source", "speed_m_s", "speed", "m/s", 1.0, None, "beam speed",
+       low=0.0, low_open=True, span=(10.0, 3000.0)),
+    _f("source", "speed_spread_m_s", "speed_spread", "m/s", 1.0, None, "speed spread (rms)",
+       low=0.0, low_open=True, span=(1.0, 1000.0)),
+    _f("source", "divergence_rms_mrad", "divergence_rms", "mrad", MRAD, 0.0,
+       "divergence (rms)", low=0.0, span=(0.0, 50.0)),
+    _f("source", "width_rms_mm", "width_rms", "mm", MM, 0.0, "beam size across laser (rms)",
+       low=0.0, span=(0.0, 10.0)),
+)
+
+BEAM_FIELDS = (
+    _f("beam", "power_mW", "power", "mW", MW, REQUIRED, "power",
+       low=0.0, span=(0.01, 1000.0), log=True),
+    _f("beam", "waist_mm", "waist", "mm", MM, REQUIRED, "waist along beam (1/e² radius)",
+       low=0.0, low_open=True, span=(0.05, 20.0), log=True),
+    _f("beam", "waist_across_mm", "waist_across", "mm", MM, None,
+       "waist across beam (1/e² radius)", low=0.0, low_open=True, span=(0.05, 20.0), log=True),
+    _f("beam", "detuning_MHz", "detuning", "MHz", MHZ, 0.0, "detuning (laser − line)",
+       span=(-500.0, 500.0)),
+    _f("beam", "linewidth_MHz", "linewidth", "MHz", MHZ, 0.0, "laser linewidth (FWHM)",
+       low=0.0, span=(0.0, 100.0)),
+    _f("beam", "position_mm", "position", "mm", MM, 0.0, "position along atomic beam",
+       span=(-200.0, 200.0)),
+    _f("beam", "angle_deg", "angle", "deg", DEG, 90.0, "crossing angle",
+       low=0.0, low_open=True, high=179.999, span=(30.0, 150.0)),
+    _f("beam", "passes", "passes", "", 1, 1, "passes", kind=int, low=1, high=100,
+       span=(1, 10)),
+)
+
+NUMERICS_FIELDS = (
+    _f("numerics", "start_mm", "start", "mm", MM, None, "integration start"),
+    _f("numerics", "end_mm", "end", "mm", MM, None, "integration end"),
+    _f("numerics", "tolerance", "tolerance", "", 1.0, 1e-4,
+       "absolute tolerance on populations", low=1e-9, high=0.1),
+    _f("numerics", "solver", "solver", "", 1, "exponential", "integrator", kind=str,
+       choices=("exponential", "radau")),
+    _f("numerics", "max_nodes", "max_nodes", "", 1, 200000,
+       "largest ensemble the quadrature may use", kind=int, low=1, high=100_000_000),
+)
+
+FIELDS = SOURCE_FIELDS + BEAM_FIELDS + NUMERICS_FIELDS
+
+
+def fields_of(table: str) -> tuple:
+    """The declared fields of one table."""
+    return tuple(f for f in FIELDS if f.table == table)

@@ -1,0 +1,241 @@
+"""Load, change and save setup TOML files (see ``files.md``).
+
+The document (file units) is the source of truth: a :class:`~pumpsim.setup.Setup`
+is always built from one by :func:`setup_from_document`, so a value changed with
+``--set``, in code or in the window goes through exactly the same checks as a
+value in a file.
+"""
+
+import copy
+import math
+import tomllib
+from pathlib import Path
+
+from .errors import InputError
+from .model import z_range
+from .schema import REQUIRED, fields_of
+from .scheme_file import load_scheme
+from .setup import Beam, Numerics, Setup, Source
+from .tomlread import check_keys, read_toml, table_list, text
+from .tomlwrite import dumps
+
+TOP_KEYS = {"scheme", "target", "source", "beam", "numerics"}
+INITIAL_SUM_SLACK = 1e-6  # explicit initial populations must sum to 1 within this
+NEEDS = {  # which optional source fields each kind requires
+    "effusive": ("temperature_K",),
+    "gaussian": ("speed_m_s", "speed_spread_m_s"),
+    "monoenergetic": ("speed_m_s",),
+}
+UNUSED = {
+    "effusive": ("speed_m_s", "speed_spread_m_s"),
+    "gaussian": (),
+    "monoenergetic": ("speed_spread_m_s",),
+}
+
+
+def load_setup(path) -> Setup:
+    """Read and validate a setup file and the scheme it names.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    Setup
+
+    Raises
+    ------
+    InputError
+        Naming file, table and key (and level) for anything unusable.
+    """
+    doc, raw_text = read_toml(path)
+    return setup_from_document(doc, str(path), text_=raw_text)
+
+
+def setup_from_document(doc: dict, file=None, scheme=None, text_=None) -> Setup:
+    """Validate a setup document and convert it to SI.
+
+    Parameters
+    ----------
+    doc : dict
+        Parsed TOML, file units.
+    file : str or None
+        Where it came from; relative scheme paths resolve against its folder.
+    scheme : Scheme or None
+        Reuse an already loaded scheme instead of reading ``doc["scheme"]``.
+    text_ : str or None
+        Verbatim file text to keep with the setup.
+    """
+    check_keys(doc, TOP_KEYS, file, None, required=("scheme", "target", "source"))
+    if scheme is None:
+        scheme = _load_named_scheme(doc, file)
+    target = text(doc, "target", file, None)
+    if target not in scheme.ids:
+        raise InputError("unknown level", file, None, "target", target)
+    source = _source(doc["source"], file, scheme)
+    beams = tuple(_beam(raw, i, file, scheme) for i, raw in enumerate(table_list(doc, "beam", file, required=False)))
+    names = [b.name for b in beams]
+    for n in names:
+        if names.count(n) > 1:
+            raise InputError(f"beam name {n!r} used twice", file, "beam", "name")
+    numerics = _numerics(doc.get("numerics", {}), file, beams)
+    return Setup(scheme, target, source, beams, numerics, file, doc, text_)
+
+
+def _load_named_scheme(doc, file):
+    name = text(doc, "scheme", file, None)
+    base = Path(file).parent if file else Path.cwd()
+    path = (base / name)
+    if not path.is_file():
+        raise InputError(f"scheme file not found: {path}", file, None, "scheme")
+    return load_scheme(path)
+
+
+def _read_fields(raw, fields, file, table):
+    out = {}
+    for f in fields:
+        if f.key in raw:
+            why = f.check(raw[f.key])
+            if why:
+                raise InputError(why, file, table, f.key)
+            out[f.attr] = f.to_si(raw[f.key])
+        elif f.default is REQUIRED:
+            raise InputError("missing required key", file, table, f.key)
+        else:
+            out[f.attr] = None if f.default is None else f.to_si(f.default)
+    return out
+
+
+def _source(raw, file, scheme):
+    fields = fields_of("source")
+    check_keys(raw, {f.key for f in fields} | {"initial"}, file, "source", required=("kind",))
+    v = _read_fields(raw, fields, file, "source")
+    for key in NEEDS[v["kind"]]:
+        if key not in raw:
+            raise InputError(f"a {v['kind']} source needs this key", file, "source", key)
+    for key in UNUSED[v["kind"]]:
+        if key in raw:
+            raise InputError(f"not used by a {v['kind']} source; remove it", file, "source", key)
+    initial = raw.get("initial", "thermal")
+    if isinstance(initial, str):
+        if initial != "thermal":
+            raise InputError(f"must be \"thermal\" or a table of level fractions, got {initial!r}",
+                             file, "source", "initial")
+        if v["temperature"] is None:
+            raise InputError("thermal initial populations need temperature_K", file, "source",
+                             "temperature_K")
+    elif isinstance(initial, dict):
+        pairs = []
+        for lid, frac in initial.items():
+            if lid not in scheme.ids:
+                raise InputError("unknown level", file, "source.initial", lid, lid)
+            if isinstance(frac, bool) or not isinstance(frac, (int, float)) or not math.isfinite(frac) or frac < 0:
+                raise InputError(f"must be a fraction >= 0, got {frac!r}", file, "source.initial", lid, lid)
+            pairs.append((lid, float(frac)))
+        total = sum(f for _, f in pairs)
+        if abs(total - 1.0) > INITIAL_SUM_SLACK:
+            raise InputError(f"fractions sum to {total:.9g}, not 1", file, "source.initial", None)
+        initial = tuple((lid, f / total) for lid, f in pairs)
+    else:
+        raise InputError(f"must be \"thermal\" or a table, got {initial!r}", file, "source", "initial")
+    return Source(initial=initial, **v)
+
+
+def _beam(raw, i, file, scheme):
+    fields = fields_of("beam")
+    table = f"beam #{i + 1}"
+    check_keys(raw, {f.key for f in fields} | {"name", "transition"}, file, table,
+               required=("name", "transition"))
+    name = text(raw, "name", file, table)
+    table = f"beam '{name}'"
+    if any(ch in name for ch in ".=[] "):
+        raise InputError("beam names may not contain '.', '=', brackets or spaces", file, table, "name")
+    tr = raw["transition"]
+    if not (isinstance(tr, list) and len(tr) == 2 and all(isinstance(x, str) for x in tr)):
+        raise InputError(f"must be [lower, upper] level ids, got {tr!r}", file, table, "transition")
+    lower, upper = tr
+    for lid in tr:
+        if lid not in scheme.ids:
+            raise InputError("unknown level", file, table, "transition", lid)
+    if scheme.level(upper).energy <= scheme.level(lower).energy:
+        raise InputError(f"upper level '{upper}' must lie above lower level '{lower}'",
+                         file, table, "transition", upper)
+    if scheme.decay(upper, lower) is None:
+        raise InputError(f"the scheme lists no decay {upper} -> {lower}, so the line has no "
+                         "strength to drive", file, table, "transition", upper)
+    v = _read_fields(raw, fields, file, table)
+    if v["waist_across"] is None:
+        v["waist_across"] = v["waist"]
+    return Beam(name=name, lower=lower, upper=upper, **v)
+
+
+def _numerics(raw, file, beams):
+    fields = fields_of("numerics")
+    check_keys(raw, {f.key for f in fields}, file, "numerics")
+    v = _read_fields(raw, fields, file, "numerics")
+    if not beams and (v["start"] is None or v["end"] is None):
+        raise InputError("with no [[beam]], give both start_mm and end_mm", file, "numerics", "start_mm")
+    n = Numerics(**v)
+    start, end = z_range(n, beams)
+    if not end > start:
+        raise InputError(f"integration range is empty ({start * 1e3:g} to {end * 1e3:g} mm)",
+                         file, "numerics", "end_mm")
+    return n
+
+
+def parse_value(value):
+    """A ``--set`` value: a TOML value if it parses as one, else plain text."""
+    if not isinstance(value, str):
+        return value
+    try:
+        return tomllib.loads(f"v = {value}")["v"]
+    except tomllib.TOMLDecodeError:
+        return value
+
+
+def with_value(setup: Setup, key: str, value) -> Setup:
+    """A new setup with the value at ``key`` replaced (``None`` removes it).
+
+    Keys are dotted paths in file units: ``target``, ``source.temperature_K``,
+    ``source.initial.g``, ``beam.pump.power_mW``, ``numerics.tolerance``.
+    """
+    doc = copy.deepcopy(setup.document)
+    parts = key.split(".")
+    file = setup.path
+    if parts[0] == "beam":
+        if len(parts) != 3:
+            raise InputError("beam keys are beam.NAME.KEY", file, "beam", key)
+        beams = doc.get("beam", [])
+        match = [b for b in beams if b.get("name") == parts[1]]
+        if not match:
+            names = ", ".join(str(b.get("name")) for b in beams) or "none"
+            raise InputError(f"no beam named {parts[1]!r} (beams: {names})", file, "beam", key)
+        node, leaf = match[0], parts[2]
+    else:
+        node = doc
+        for p in parts[:-1]:
+            node = node.setdefault(p, {})
+            if not isinstance(node, dict):
+                raise InputError("not a table", file, p, key)
+        leaf = parts[-1]
+    value = parse_value(value)
+    if value is None:
+        node.pop(leaf, None)
+    else:
+        node[leaf] = value
+    scheme = None if key == "scheme" else setup.scheme
+    return setup_from_document(doc, file, scheme=scheme)
+
+
+def setup_to_toml(setup: Setup) -> str:
+    """The setup's document as TOML text (file units)."""
+    return dumps(setup.document)
+
+
+def save_setup(setup: Setup, path) -> None:
+    """Write the setup to ``path`` atomically (temporary name, then rename)."""
+    p = Path(path)
+    tmp = p.with_name(p.name + ".partial")
+    tmp.write_text(setup_to_toml(setup), encoding="utf-8")
+    tmp.replace(p)

@@ -1,0 +1,53 @@
+"""One simulation of one setup: the engine's main entry point."""
+
+import numpy as np
+
+from .ensemble import EnsembleIntegrator
+from .model import RateModel
+from .result import NumericsReport, Result
+from .solvers import ExponentialPropagator, RadauPropagator
+
+
+def make_propagator(numerics):
+    """The integrator a setup's numerics ask for."""
+    if numerics.solver == "radau":
+        return RadauPropagator(rtol=1e-3 * numerics.tolerance, atol=1e-5 * numerics.tolerance)
+    return ExponentialPropagator()
+
+
+def simulate(setup, basis=None, progress=None) -> Result:
+    """Integrate the rate equations for every class of atom and average.
+
+    Parameters
+    ----------
+    setup : Setup
+    basis : Basis, optional
+        State space (level basis by default).
+    progress : callable, optional
+        ``progress(message)`` during refinement.
+
+    Returns
+    -------
+    Result
+    """
+    model = RateModel(setup, basis)
+    num = setup.numerics
+    ens = EnsembleIntegrator(model, make_propagator(num), num.tolerance, num.max_nodes,
+                             progress).run()
+    levels = setup.scheme.ids + ("other",)
+    L, B = len(levels), len(setup.beams)
+    pops = ens.values[:L]
+    names = [b.name for b in setup.beams]
+    conservation = float(np.max(np.abs(ens.nodes.values[:, :L].sum(axis=1) - 1.0)))
+    report = NumericsReport(
+        solver=num.solver, tolerance=num.tolerance, steps=len(ens.z) - 1,
+        steps_per_waist=ens.per_waist, nodes=len(ens.nodes.v),
+        nodes_evaluated=ens.nodes_evaluated, angle_nodes=ens.rules["angle"],
+        offset_nodes=ens.rules["offset"], speed_panels=ens.rules["speed_panels"],
+        error_estimate=ens.errors, converged=ens.converged,
+        conservation_error=conservation, seconds=ens.seconds)
+    final = {lid: float(p) for lid, p in zip(levels, pops)}
+    return Result(setup, tuple(levels), final, final[setup.target],
+                  {n: float(x) for n, x in zip(names, ens.values[L:L + B])},
+                  {n: float(x) for n, x in zip(names, ens.values[L + B:])},
+                  ens.z, ens.profile, ens.nodes, report)

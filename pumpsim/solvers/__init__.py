@@ -1,0 +1,16 @@
+"""Integrators for the batched linear rate equations; see :mod:`.base`."""
+
+from .base import LinearProblem, Propagator, Trajectory
+from .exponential import ExponentialPropagator
+from .radau import RadauPropagator
+
+PROPAGATORS = {"exponential": ExponentialPropagator, "radau": RadauPropagator}
+
+
+def get_propagator(name: str) -> Propagator:
+    """The propagator registered under ``name``."""
+    return PROPAGATORS[name]()
+
+
+__all__ = ["LinearProblem", "Propagator", "Trajectory", "ExponentialPropagator",
+           "RadauPropagator", "get_propagator", "PROPAGATORS"]

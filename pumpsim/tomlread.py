@@ -1,0 +1,72 @@
+"""Reading TOML files and checking table keys, with errors that name the place."""
+
+import tomllib
+from pathlib import Path
+
+from .errors import InputError
+
+
+def read_toml(path):
+    """Parse a TOML file into a dict; any failure is an :class:`InputError`."""
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+    except OSError as exc:
+        raise InputError(f"cannot read file ({exc.strerror or exc})", file=str(p)) from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError:
+        raise InputError("file is not UTF-8 text", file=str(p)) from None
+    try:
+        return tomllib.loads(text), text
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML: {exc}", file=str(p)) from None
+
+
+def check_keys(table: dict, allowed, file, name, required=()):
+    """Reject unknown keys and report missing required ones."""
+    if not isinstance(table, dict):
+        raise InputError(f"must be a table, got {type(table).__name__}", file, name)
+    for key in table:
+        if key not in allowed:
+            raise InputError(
+                f"unknown key (allowed: {', '.join(sorted(allowed))})", file, name, key
+            )
+    for key in required:
+        if key not in table:
+            raise InputError("missing required key", file, name, key)
+
+
+def table_list(doc: dict, key: str, file, required=True):
+    """An array of tables such as ``[[level]]``, checked for shape."""
+    items = doc.get(key)
+    if items is None:
+        if required:
+            raise InputError(f"no [[{key}]] tables", file, key)
+        return []
+    if not isinstance(items, list) or not all(isinstance(t, dict) for t in items):
+        raise InputError(f"must be an array of tables written [[{key}]]", file, key)
+    return items
+
+
+def number(table, key, file, name, *, positive=False, nonnegative=False, level=None):
+    """A finite number from a table, with optional sign checks."""
+    import math
+
+    value = table[key]
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise InputError(f"must be a number, got {value!r}", file, name, key, level)
+    if not math.isfinite(value):
+        raise InputError(f"must be finite, got {value!r}", file, name, key, level)
+    if positive and value <= 0:
+        raise InputError(f"must be > 0, got {value!r}", file, name, key, level)
+    if nonnegative and value < 0:
+        raise InputError(f"must be >= 0, got {value!r}", file, name, key, level)
+    return float(value)
+
+
+def text(table, key, file, name, level=None):
+    value = table[key]
+    if not isinstance(value, str) or not value.strip():
+        raise InputError(f"must be non-empty text, got {value!r}", file, name, key, level)
+    return value
