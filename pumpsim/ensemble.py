@@ -29,13 +29,22 @@ from .sources import speeds_of
 
 ODE_SHARE, INNER_SHARE, SPEED_SHARE = 0.1, 0.2, 0.5
 CHUNK = 2048
-START_PER_WAIST, MAX_PER_WAIST = 4, 1024
+MAX_PER_WAIST = 1024
 # Doubling the grid of a method of order p shrinks its error 2**p times, so the error of the
 # finer grid is the change divided by 2**p - 1. The integrator is of order 4 on smooth
 # profiles but shows order 3 in strongly saturated wings; 2**3 - 1 is the safe divisor.
 GRID_ORDER_FACTOR = 7.0
-ANGLE_RULES, OFFSET_RULES = (6, 12, 24, 48, 96), (3, 6, 12, 24, 48)
-START_PANELS = 6
+ANGLE_RULES, OFFSET_RULES = (3, 6, 12, 24, 48, 96), (2, 3, 6, 12, 24, 48)
+COARSE = 1e-3  # at this tolerance or looser, refinement starts from the smallest rules
+
+
+def starting_point(tolerance):
+    """Where refinement starts: steps per waist, first angle and offset rules (indices
+    into the ladders) and speed panels. Starting small makes coarse answers cheap;
+    starting one rung up saves a rung at the default tolerance, where it is always climbed."""
+    if tolerance >= COARSE:
+        return dict(per_waist=2, rung=0, panels=3)
+    return dict(per_waist=4, rung=1, panels=6)
 DEFLECTION_FLOOR = 1e-7  # rad; below this a deflection is judged absolutely
 
 
@@ -160,9 +169,9 @@ class EnsembleIntegrator:
         a = np.array([0.0, 2.0, -2.0]) * src.divergence_rms
         V, A = (x.ravel() for x in np.meshgrid(v, a))
         problem = self.model.problem(V, A, np.zeros_like(V))
-        if not getattr(self.propagator, "batched", True):
-            return START_PER_WAIST, 0.0
-        per = START_PER_WAIST
+        if not self.propagator.batched:
+            return starting_point(self.tol)["per_waist"], 0.0
+        per = starting_point(self.tol)["per_waist"]
         prev = self._values(V, self.propagator.propagate(problem, self.model.grid(per)).final)
         while True:
             fine = self._values(V, self.propagator.propagate(problem, self.model.grid(2 * per)).final)
@@ -177,7 +186,7 @@ class EnsembleIntegrator:
     def breakpoints(self):
         """Speed-panel edges: equal panels plus the velocity classes angled beams select."""
         lo, hi = self.speeds.support()
-        edges = list(np.linspace(lo, hi, START_PANELS + 1))
+        edges = list(np.linspace(lo, hi, starting_point(self.tol)["panels"] + 1))
         m = self.model
         for t, (i, sign) in enumerate(m.terms):
             b, ln = m.setup.beams[i], m.lines[i]
@@ -253,8 +262,9 @@ class EnsembleIntegrator:
         per, ode_err = self.converge_grid()
         z = self.model.grid(per)
         src = self.model.setup.source
-        sizes = {"angle": 1 if src.divergence_rms == 0 else ANGLE_RULES[0],
-                 "offset": 1 if src.width_rms == 0 else OFFSET_RULES[0]}
+        rung = starting_point(self.tol)["rung"]
+        sizes = {"angle": 1 if src.divergence_rms == 0 else ANGLE_RULES[rung],
+                 "offset": 1 if src.width_rms == 0 else OFFSET_RULES[rung]}
         single = self.speeds.single_speed is not None
         edges = [0, 0] if single else self.breakpoints()
         panels = list(zip(edges[:-1], edges[1:]))
@@ -265,7 +275,7 @@ class EnsembleIntegrator:
         for dim, ladder in (("angle", ANGLE_RULES), ("offset", OFFSET_RULES)):
             if sizes[dim] == 1:
                 continue
-            for nxt in ladder[1:]:
+            for nxt in ladder[ladder.index(sizes[dim]) + 1:]:
                 trial = dict(sizes, **{dim: nxt})
                 value = self.gauss_total(panels, self.inner_rule(trial["angle"], trial["offset"]), z)
                 err = float(np.max(np.abs(value - current) / self.scale(value)))

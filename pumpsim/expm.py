@@ -27,28 +27,27 @@ _COEF = [1.0 / math.factorial(k) for k in range(DEGREE + 1)]
 _BLOCK = 4  # Paterson-Stockmeyer block size
 
 
+_STARTS = tuple(range(0, DEGREE + 1, _BLOCK))
+# row b, column j: coefficient of Z**j in Paterson-Stockmeyer block b
+_BLOCK_COEF = np.array([[_COEF[b + j] if b + j <= DEGREE else 0.0 for j in range(_BLOCK)]
+                        for b in _STARTS])
+
+
 def _taylor(Z):
-    """``sum_k Z^k / k!`` to DEGREE by Paterson-Stockmeyer (DEGREE // _BLOCK + _BLOCK - 1 matrix products)."""
-    m = Z.shape[-1]
+    """``sum_k Z^k / k!`` to DEGREE by Paterson-Stockmeyer."""
+    n, m, _ = Z.shape
+    powers = np.empty((_BLOCK - 1, n, m, m))
+    powers[0] = Z
+    for j in range(1, _BLOCK - 1):
+        np.matmul(powers[j - 1], Z, out=powers[j])
+    top = powers[-1] @ Z
+    blocks = (_BLOCK_COEF[:, 1:] @ powers.reshape(_BLOCK - 1, -1)).reshape(-1, n, m, m)
     idx = np.arange(m)
-    powers = [None, Z]
-    for _ in range(2, _BLOCK + 1):
-        powers.append(powers[-1] @ Z)
-    top = powers[_BLOCK]
-
-    def block(start):
-        b = np.zeros_like(Z)
-        for j in range(1, _BLOCK):
-            if start + j <= DEGREE:
-                b += _COEF[start + j] * powers[j]
-        b[:, idx, idx] += _COEF[start]
-        return b
-
-    starts = list(range(0, DEGREE + 1, _BLOCK))
-    out = block(starts[-1])
-    for start in reversed(starts[:-1]):
+    blocks[:, :, idx, idx] += _BLOCK_COEF[:, :1, None]
+    out = blocks[-1]
+    for b in blocks[-2::-1]:
         out = out @ top
-        out += block(start)
+        out += b
     return out
 
 

@@ -53,15 +53,6 @@ def partition(problem):
     return np.nonzero(reached & gives)[0], np.nonzero(reached & ~gives)[0]
 
 
-def _combine(base, weights, drives):
-    """``base + sum_t weights[t] * drives[t]``."""
-    out = base.copy()
-    for w, d in zip(weights, drives):
-        if w:
-            out += w * d
-    return out
-
-
 class ExponentialPropagator(Propagator):
     """Batched CF4 exponential integrator on a given grid (see module docstring)."""
 
@@ -74,10 +65,11 @@ class ExponentialPropagator(Propagator):
         n, r = problem.size, len(T)
         y = problem.y0.copy()
         yT = y[:, T].copy()
-        half = 0.5 * problem.base
-        base_TT, base_RT = half[:, T][:, :, T], half[:, R][:, :, T]
-        drv_TT = problem.drives[:, :, T][:, :, :, T]
-        drv_RT = problem.drives[:, :, R][:, :, :, T]
+        # generator pieces stacked as (1 + terms, n, ., .): half the base (each of the two
+        # factors carries half the constant part), then the drives
+        pieces = np.concatenate([0.5 * problem.base[None], problem.drives])
+        TT = pieces[:, :, T][:, :, :, T].reshape(len(pieces), -1)
+        RT = pieces[:, :, R][:, :, :, T].reshape(len(pieces), -1)
         h = np.diff(z)
         mid = 0.5 * (z[:-1] + z[1:])
         f1, f2 = problem.profiles(mid - C * h), problem.profiles(mid + C * h)
@@ -89,13 +81,12 @@ class ExponentialPropagator(Propagator):
         M = np.zeros((n, r + 1, r + 1))
         for j, hj in enumerate(h):
             for w in weights:
-                wj = w[:, j]
-                M[:, :r, :r] = _combine(base_TT, wj, drv_TT)
-                M[:, :r, :r] *= hj
+                wj = np.concatenate([[1.0], w[:, j]])
+                M[:, :r, :r] = ((wj * hj) @ TT).reshape(n, r, r)
                 M[:, :r, r] = yT * hj
                 E = expm_stack(M)
                 if len(R):
-                    y[:, R] += np.einsum("nij,nj->ni", _combine(base_RT, wj, drv_RT), E[:, :r, r])
+                    y[:, R] += np.einsum("nij,nj->ni", (wj @ RT).reshape(n, len(R), r), E[:, :r, r])
                 yT = np.einsum("nij,nj->ni", E[:, :r, :r], yT)
             if reduced is not None:
                 y[:, T] = yT
