@@ -42,8 +42,8 @@ C = math.sqrt(3.0) / 6.0
 
 def partition(problem):
     """Indices of giving states ``T`` and receiving states ``R`` that can be populated."""
-    pattern = (np.abs(problem.base).max(axis=0) > 0) | (np.abs(problem.drives).max(axis=(0, 1)) > 0)
-    reached = np.abs(problem.y0).max(axis=0) > 0
+    pattern = (problem.base != 0).any(axis=0) | (problem.drives != 0).any(axis=(0, 1))
+    reached = (problem.y0 != 0).any(axis=0)
     while True:
         grown = reached | pattern[:, reached].any(axis=1)
         if (grown == reached).all():
