@@ -107,7 +107,7 @@ class RateModel:
                 drives[t, :, acc, lo] += rate
                 drives[t, :, acc, up] -= rate * r
         y = np.broadcast_to(self.initial, (n, m)).copy()
-        return LinearProblem(base, drives, self.profiles, y)
+        return LinearProblem(base, drives, self.profiles, y, np.arange(m) < S)
 
     def grid(self, per_waist: float) -> np.ndarray:
         """Integration grid with ``per_waist`` steps per projected waist

@@ -34,12 +34,16 @@ class LinearProblem:
         ``profiles(z)`` for an array ``z`` of shape (k,) returns (T, k).
     y0 : ndarray, shape (n, m)
         State at the start of the grid.
+    conserved : ndarray of bool, shape (m,), optional
+        Components whose sum the dynamics conserves exactly (the populations). A
+        propagator may project its rounding drift off this sum.
     """
 
     base: np.ndarray
     drives: np.ndarray
     profiles: object
     y0: np.ndarray
+    conserved: np.ndarray | None = None
 
     @property
     def size(self):
@@ -53,7 +57,7 @@ class LinearProblem:
     def subset(self, index) -> "LinearProblem":
         """The same problem restricted to some nodes."""
         return LinearProblem(self.base[index], self.drives[:, index], self.profiles,
-                             self.y0[index])
+                             self.y0[index], self.conserved)
 
 
 @dataclass(frozen=True)
