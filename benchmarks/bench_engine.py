@@ -15,7 +15,6 @@ population difference. Target (issue 2): ratio >= 300 at a difference <= 1e-5.
 """
 
 import argparse
-import math
 import time
 
 import numpy as np

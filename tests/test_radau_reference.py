@@ -8,7 +8,6 @@ scipy's general-purpose stiff integrator (E. Hairer and G. Wanner, *Solving Ordi
 Differential Equations II*, Springer 1996, Radau IIA of order 5).
 """
 
-import math
 
 import numpy as np
 import pytest
