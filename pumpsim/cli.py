@@ -37,6 +37,9 @@ def main(argv=None):
     except InputError as exc:
         print(f"pumpsim: error: {exc}", file=sys.stderr)
         return 2
+    except BrokenPipeError:  # output piped into e.g. `head`, which stopped reading
+        sys.stdout = open(os.devnull, "w")
+        return 0
     except KeyboardInterrupt:
         print("pumpsim: interrupted", file=sys.stderr)
         return 1

@@ -145,10 +145,11 @@ def _source(raw, file, scheme):
 def _beam(raw, i, file, scheme):
     fields = fields_of("beam")
     table = f"beam #{i + 1}"
+    if isinstance(raw, dict) and isinstance(raw.get("name"), str) and raw["name"].strip():
+        table = f"beam '{raw['name']}'"
     check_keys(raw, {f.key for f in fields} | {"name", "transition"}, file, table,
                required=("name", "transition"))
     name = text(raw, "name", file, table)
-    table = f"beam '{name}'"
     if any(ch in name for ch in ".=[] "):
         raise InputError("beam names may not contain '.', '=', brackets or spaces", file, table, "name")
     tr = raw["transition"]

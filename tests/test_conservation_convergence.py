@@ -81,11 +81,6 @@ def test_population_never_negative(tmp_path_factory, stiffness):
         assert population_errors(result)[1] > -1e-12, label
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "engine bug: pumpsim.expm.expm_stack loses conservation as 2**s * eps under its "
-    "s squarings (uniformisation makes exp(0) = e^-mu * T(mu) = 1 + eps, then doubled s "
-    "times); at decay rate x transit time 1e6 the population sums drift by ~1e-9, and "
-    "10 W focused to 50 um on fast atoms drifts by ~1e-10"))
 def test_population_conserved_at_stiffness_1e6_and_10_W(tmp_path_factory):
     worst = max(population_errors(r)[0] for _, r in extreme_runs(tmp_path_factory, 1e6)
                 + extreme_runs(tmp_path_factory, 1e2))
@@ -93,8 +88,10 @@ def test_population_conserved_at_stiffness_1e6_and_10_W(tmp_path_factory):
 
 
 @pytest.mark.xfail(strict=True, reason=(
-    "engine bug (minimal reproduction): the columns of expm_stack of a 2x2 decay "
-    "generator sum to 1 + ~5e-10 at rate x step = 1e6; scipy.linalg.expm gives 1 to 1e-15"))
+    "known limit of expm_stack alone: its column sums drift as 2**s * eps over s squarings "
+    "(~5e-10 at rate x step = 1e6); the exponential propagator projects the drift off the "
+    "population sum after each step, which test_population_conserved_at_stiffness_1e6_and_10_W "
+    "checks"))
 def test_expm_stack_keeps_column_sums_of_stiff_generators():
     mus = np.geomspace(1e3, 1e6, 13)  # rate x step; several of these lose 1e-12 .. 5e-10
     X = np.zeros((len(mus), 2, 2))

@@ -131,10 +131,10 @@ SETUP_RULES = [
     ("initial not summing to 1", _set(["source", "initial"], {"g": 0.5, "m": 0.4}),
      "source.initial", None, None),
     ("initial wrong text", _set(["source", "initial"], "cold"), "source", "initial", None),
-    # keys are checked before the name is read, so the table is named by its position
-    ("unknown beam key", _set(["beam", 0, "colour"], "blue"), "beam #1", "colour", None),
+    # a beam is named by its name where it has one, else by its position
+    ("unknown beam key", _set(["beam", 0, "colour"], "blue"), "beam 'pump'", "colour", None),
     ("missing beam name", _set(["beam", 0, "name"], DELETE), "beam #1", "name", None),
-    ("missing transition", _set(["beam", 0, "transition"], DELETE), "beam #1", "transition", None),
+    ("missing transition", _set(["beam", 0, "transition"], DELETE), "beam 'pump'", "transition", None),
     ("missing power", _set(["beam", 0, "power_mW"], DELETE), "beam 'pump'", "power_mW", None),
     ("missing waist", _set(["beam", 1, "waist_mm"], DELETE), "beam 'probe'", "waist_mm", None),
     ("unknown level in transition", _set(["beam", 0, "transition"], ["g", "nope"]),
