@@ -30,6 +30,7 @@ class Batcher:
         self.progress = progress
         self.cache = {}
         self.simulations = 0
+        self.unconverged = 0  # simulations whose error estimate missed the tolerance
 
     def run(self, setups) -> list:
         """Outcomes of ``setups`` in order; a setup seen before is not re-run."""
@@ -43,6 +44,7 @@ class Batcher:
         outcomes = run_ordered(self.executor, evaluate, todo.values(), self.progress)
         self.cache.update(zip(todo, outcomes))
         self.simulations += len(todo)
+        self.unconverged += sum(not o.converged for o in outcomes)
         return [self.cache[k] for k in keys]
 
     def drive(self, searches) -> list:

@@ -19,11 +19,12 @@ FORMATS = (".png", ".svg", ".pdf")
 DPI = 150
 
 
-def check_path(path):
-    """Reject a plot file name matplotlib would not write as PNG, SVG or PDF."""
+def check_path(path, file=None):
+    """Reject a plot file name that is not PNG, SVG or PDF (``file``: the setup, for
+    the message)."""
     if Path(path).suffix.lower() not in FORMATS:
         raise InputError(f"plot files end in {', '.join(FORMATS)}; got {str(path)!r}",
-                         table="--plot")
+                         file, "--plot")
 
 
 def _figure(size):
@@ -220,7 +221,7 @@ def plot_scan(scan, path, F=None):
     ax.set_xlabel(label_of(setup, axes[0]))
     if ax.get_legend_handles_labels()[0]:
         _legend_below(ax)
-    title = f"{setup.scheme.name}: scan of {len(axes)} value{'s' if len(axes) > 1 else ''}"
+    title = f"{setup.scheme.name}: {Path(setup.path or 'setup').name}, target '{setup.target}'"
     if sliced:
         title += "\nslice at " + ", ".join(sliced)
     ax.set_title(title, fontsize=9)

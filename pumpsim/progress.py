@@ -79,8 +79,10 @@ class Progress:
         if not final and self.last is not None and now - self.last < wait:
             return
         self.last = now
-        end = "\n" if final or not self.tty else ""
-        self.stream.write(("\r" if self.tty else "") + self.line() + ("\x1b[K" if self.tty else "") + end)
+        if self.tty:  # redraw in place, clear the rest of the line
+            self.stream.write("\r" + self.line() + "\x1b[K" + ("\n" if final else ""))
+        else:
+            self.stream.write(self.line() + "\n")
         self.stream.flush()
 
     def close(self):

@@ -75,6 +75,7 @@ class Route:
             "branching_limit": self.limit.fraction,
             "photons_per_atom": None if o is None else o.photons_per_atom[beam],
             "deflection_mrad": None if o is None else o.deflection[beam] * 1e3,
+            "converged": s.ceiling.converged and (o is None or o.converged),
             "cautions": list(self.cautions),
         }
 

@@ -311,6 +311,8 @@ class Sizing:
     reason : str or None
         Plain words: why it is out of reach.
     simulations : int
+    unconverged : int
+        How many of them missed the numerical tolerance.
     cautions : list of str
     """
 
@@ -324,6 +326,7 @@ class Sizing:
     limited_by: str | None
     reason: str | None
     simulations: int
+    unconverged: int
     cautions: list
 
     def to_dict(self):
@@ -348,6 +351,7 @@ class Sizing:
             "best_waist_at_bound": None if w is None else dict(w.at_bound),
             "best_waist_bounds_mm": None if w is None else [[x * 1e3 for x in r] for r in w.bounds],
             "simulations": self.simulations,
+            "unconverged_simulations": self.unconverged,
             "cautions": list(self.cautions),
         }
         if s.outcome is not None:
@@ -476,4 +480,5 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
     shown = [search.power, wpower, search.ceiling_power] + (
         [grid["power"][-1]] if grid is not None else [])
     return Sizing(setup, beam, F, search, limit, waist, grid, limited_by, reason,
-                  batcher.simulations, shown_cautions(setup, beam, shown))
+                  batcher.simulations, batcher.unconverged,
+                  shown_cautions(setup, beam, shown))

@@ -31,11 +31,10 @@ def handle(args):
     if args.plot:
         from ..plots import check_path
 
-        check_path(args.plot)
+        check_path(args.plot, setup.path)
     chosen = [x.strip() for x in args.routes.split(",") if x.strip()] if args.routes else None
     F = args.target_fraction
-    with executor_from_args(args) as ex, progress("compare") as bar:
-        status(f"compare: simulations on {ex.describe()}")
+    with executor_from_args(args, setup.path) as ex, progress(f"compare ({ex.describe()})") as bar:
         routes = compare(setup, beam, F, ex, chosen, bar)
         curves = route_curves(setup, routes, ex, bar) if args.plot else None
     warnings = all_cautions(routes)
@@ -74,6 +73,8 @@ def summary(setup, beam, F, routes, warnings):
                    f"{d['sigma0_m2']:10.3g} {d['branching_target']:8.3f} "
                    f"{d['branching_other']:7.3f} {power:>11} {d['ceiling']:8.4f} "
                    f"{d['branching_limit']:7.4f} {photons:>8} {defl:>12}")
+    if not all(r.to_dict()["converged"] for r in routes):
+        out += ["", "WARNING: some of these simulations did not meet the numerical tolerance"]
     out += ["", "power: least power reaching F at the setup's waist (re-simulated); ceiling: "
                 "unlimited power, this transit; limit: unlimited power and time.",
             "ranked: routes reaching F first, by least power; then by ceiling."]

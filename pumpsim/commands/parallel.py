@@ -24,13 +24,14 @@ def add_plot_argument(p):
     p.add_argument("--plot", metavar="FILE", help="also draw a figure: .png, .svg or .pdf")
 
 
-def executor_from_args(args):
+def executor_from_args(args, file=None):
+    """The executor the options ask for (``file``: the setup, for messages)."""
     if args.workers is not None and args.workers < 1:
-        raise InputError(f"must be at least 1, got {args.workers}", table="--workers")
+        raise InputError(f"must be at least 1, got {args.workers}", file, "--workers")
     return make_executor(args.workers, args.scheduler)
 
 
-def parse_range(text, option, scale):
+def parse_range(text, option, scale, file=None):
     """``"MIN:MAX"`` in file units -> ``(min, max)`` in SI (times ``scale``), or ``None``."""
     if text is None:
         return None
@@ -40,7 +41,7 @@ def parse_range(text, option, scale):
             raise ValueError
         return (float(lo) * scale, float(hi) * scale)
     except ValueError:
-        raise InputError(f"needs MIN:MAX, got {text!r}", table=option) from None
+        raise InputError(f"needs MIN:MAX, got {text!r}", file, option) from None
 
 
 def pick_beam(setup, name):

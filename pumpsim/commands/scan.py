@@ -36,9 +36,8 @@ def handle(args):
     if args.plot:
         from ..plots import check_path
 
-        check_path(args.plot)
-    with executor_from_args(args) as ex, progress("scan") as bar:
-        status(f"scan: {' × '.join(str(len(a.values)) for a in axes)} points on {ex.describe()}")
+        check_path(args.plot, setup.path)
+    with executor_from_args(args, setup.path) as ex, progress(f"scan ({ex.describe()})") as bar:
         result = scan(setup, axes, args.out, ex, bar, command_line())
     if args.plot:
         from ..plots import plot_scan
@@ -56,7 +55,8 @@ def handle(args):
                   f"{a.values[-1]:g} in {len(a.values)}")
         print(f"transfer fraction into '{setup.target}': {d['transfer_fraction_min']:.5f} to "
               f"{d['transfer_fraction_max']:.5f}"
-              + ("" if d["all_converged"] else "  (some points NOT converged: see results/converged)"))
+              + ("" if d["all_converged"]
+                 else "  (some points NOT converged: see results/converged)"))
         print()
         for c in result.cautions:
             print("CAUTION: " + c)

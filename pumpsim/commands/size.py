@@ -43,14 +43,15 @@ def handle(args):
     if args.plot:
         from ..plots import check_path
 
-        check_path(args.plot)
+        check_path(args.plot, setup.path)
         if args.map == 0:
-            raise InputError("--plot draws the map: give --map N with N >= 2", table="--map")
-    ranges = dict(along=parse_range(args.waist_range, "--waist-range", 1e-3),
-                  across=parse_range(args.waist_across_range, "--waist-across-range", 1e-3),
-                  power_range=parse_range(args.power_range, "--power-range", 1e-3))
-    with executor_from_args(args) as ex, progress("size") as bar:
-        status(f"size: simulations on {ex.describe()}")
+            raise InputError("--plot draws the map: give --map N with N >= 2", setup.path,
+                             "--map")
+    ranges = {key: parse_range(getattr(args, attr), option, 1e-3, setup.path)
+              for key, attr, option in (("along", "waist_range", "--waist-range"),
+                                        ("across", "waist_across_range", "--waist-across-range"),
+                                        ("power_range", "power_range", "--power-range"))}
+    with executor_from_args(args, setup.path) as ex, progress(f"size ({ex.describe()})") as bar:
         result = size(setup, beam, args.target_fraction, ex,
                       None if args.power is None else args.power * 1e-3,
                       map_points=args.map, progress=bar, **ranges)
@@ -108,5 +109,8 @@ def summary(r):
                 f"{t:9.4f}" if t < r.target_fraction else f"{t:8.4f}*" for t in row))
         out.append(f"  (* reaches F = {r.target_fraction:g})")
     out += ["", f"{r.simulations} simulations"]
+    if r.unconverged:
+        out.append(f"WARNING: {r.unconverged} of them did not meet the numerical tolerance "
+                   "(see pumpsim run on such a point); treat the numbers with care")
     out += [""] + ["CAUTION: " + c for c in r.cautions]
     return "\n".join(out)

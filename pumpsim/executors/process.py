@@ -21,10 +21,13 @@ class ProcessExecutor(Executor):
 
     def __init__(self, workers=None):
         self.workers = int(workers or os.cpu_count() or 1)
-        self._pool = cf.ProcessPoolExecutor(self.workers)
+        self._pool = None  # started at the first task: bad input costs no start-up
 
     def submit(self, fn, *args):
+        if self._pool is None:
+            self._pool = cf.ProcessPoolExecutor(self.workers)
         return self._pool.submit(fn, *args)
 
     def shutdown(self):
-        self._pool.shutdown(wait=True, cancel_futures=True)
+        if self._pool is not None:
+            self._pool.shutdown(wait=True, cancel_futures=True)
