@@ -1,0 +1,68 @@
+"""Options shared by the commands that run many simulations: executor, ranges, plots."""
+
+import shlex
+import sys
+
+from ..errors import InputError
+from ..executors import make_executor
+from ..progress import Progress
+
+
+def add_executor_arguments(p):
+    """``--workers N`` and ``--scheduler ADDRESS``."""
+    g = p.add_argument_group("where the simulations run")
+    g.add_argument("--workers", type=int, metavar="N",
+                   help="local worker processes (default: all cores; 1 runs everything in "
+                        "this process)")
+    g.add_argument("--scheduler", metavar="ADDRESS",
+                   help="run on a Dask distributed cluster through its scheduler, e.g. "
+                        "tcp://10.0.0.5:8786 (needs the optional extra: pip install "
+                        "'pumpsim[dask]')")
+
+
+def add_plot_argument(p):
+    p.add_argument("--plot", metavar="FILE", help="also draw a figure: .png, .svg or .pdf")
+
+
+def executor_from_args(args, file=None):
+    """The executor the options ask for (``file``: the setup, for messages)."""
+    if args.workers is not None and args.workers < 1:
+        raise InputError(f"must be at least 1, got {args.workers}", file, "--workers")
+    return make_executor(args.workers, args.scheduler)
+
+
+def parse_range(text, option, scale, file=None):
+    """``"MIN:MAX"`` in file units -> ``(min, max)`` in SI (times ``scale``), or ``None``."""
+    if text is None:
+        return None
+    lo, sep, hi = text.partition(":")
+    try:
+        if not sep:
+            raise ValueError
+        return (float(lo) * scale, float(hi) * scale)
+    except ValueError:
+        raise InputError(f"needs MIN:MAX, got {text!r}", file, option) from None
+
+
+def pick_beam(setup, name):
+    """The beam named on the command line, or the setup's only beam."""
+    names = [b.name for b in setup.beams]
+    if name is None:
+        if len(names) == 1:
+            return names[0]
+        raise InputError(f"choose the beam with --beam ({', '.join(names) or 'no beams'})",
+                         setup.path, "--beam")
+    if name not in names:
+        raise InputError(f"no beam named {name!r} (beams: {', '.join(names) or 'none'})",
+                         setup.path, "--beam")
+    return name
+
+
+def progress(label):
+    """A progress bar on stderr for this command."""
+    return Progress(label)
+
+
+def command_line():
+    """The command as typed, for storing with results."""
+    return "pumpsim " + " ".join(shlex.quote(a) for a in sys.argv[1:])

@@ -1,0 +1,65 @@
+"""``pumpsim scan SETUP --vary KEY=START:STOP:N[:log] ... --out FILE.h5``: grids to HDF5."""
+
+from dataclasses import replace
+from pathlib import Path
+
+from ..scan import parse_axes, scan
+from .common import add_setup_arguments, print_json, setup_from_args, status
+from .parallel import (add_executor_arguments, add_plot_argument, command_line,
+                       executor_from_args, progress)
+
+
+def add_parser(sub):
+    p = sub.add_parser(
+        "scan", help="simulate a grid over any setup values and write it to HDF5",
+        description="Simulate every point of an N-dimensional grid over setup values (the "
+                    "keys of --set, in file units) and write the results, the axes with "
+                    "their units and the inputs to an HDF5 file.")
+    add_setup_arguments(p)
+    p.add_argument("--vary", action="append", default=[], required=True,
+                   metavar="KEY=START:STOP:N[:log]",
+                   help="one axis of the grid, e.g. beam.pump.power_mW=1:100:21:log "
+                        "(repeatable: one per dimension)")
+    p.add_argument("--out", required=True, metavar="FILE.h5", help="HDF5 file to write")
+    p.add_argument("--target-fraction", type=float, metavar="F",
+                   help="draw the contour of this transfer fraction on the plot")
+    add_plot_argument(p)
+    add_executor_arguments(p)
+    p.set_defaults(handler=handle)
+
+
+def handle(args):
+    setup = setup_from_args(args)
+    if setup.text is None and setup.path:  # keep the file verbatim even after --set
+        setup = replace(setup, text=Path(setup.path).read_text(encoding="utf-8"))
+    axes = parse_axes(args.vary, setup)
+    if args.plot:
+        from ..plots import check_path
+
+        check_path(args.plot, setup.path)
+    with executor_from_args(args, setup.path) as ex, progress(f"scan ({ex.describe()})") as bar:
+        result = scan(setup, axes, args.out, ex, bar, command_line())
+    if args.plot:
+        from ..plots import plot_scan
+
+        plot_scan(result, args.plot, args.target_fraction)
+    if args.json:
+        print_json(result.to_dict())
+        for c in result.cautions:
+            status("CAUTION: " + c)
+    else:
+        d = result.to_dict()
+        print(f"wrote {d['out']}: {' × '.join(map(str, d['shape']))} grid, {d['points']} points")
+        for a in axes:
+            print(f"  {a.key} ({a.unit or 'number'}, {a.spacing}): {a.values[0]:g} to "
+                  f"{a.values[-1]:g} in {len(a.values)}")
+        print(f"transfer fraction into '{setup.target}': {d['transfer_fraction_min']:.5f} to "
+              f"{d['transfer_fraction_max']:.5f}"
+              + ("" if d["all_converged"]
+                 else "  (some points NOT converged: see results/converged)"))
+        print()
+        for c in result.cautions:
+            print("CAUTION: " + c)
+    if args.plot:
+        status(f"wrote {args.plot}")
+    return 0

@@ -1,0 +1,31 @@
+"""Where independent simulations run: in this process, a local process pool, or Dask.
+
+Every executor has the small ``concurrent.futures`` contract of :mod:`.base`;
+:func:`make_executor` picks one from the command-line choices.
+"""
+
+from .base import Executor, imap_unordered, run_ordered
+from .cluster import DaskExecutor
+from .process import ProcessExecutor
+from .serial import SerialExecutor
+
+__all__ = ["Executor", "SerialExecutor", "ProcessExecutor", "DaskExecutor",
+           "make_executor", "imap_unordered", "run_ordered"]
+
+
+def make_executor(workers=None, scheduler=None) -> Executor:
+    """The executor for the command-line options ``--workers`` and ``--scheduler``.
+
+    Parameters
+    ----------
+    workers : int or None
+        Local processes; ``None`` means all cores, ``1`` runs in this process.
+    scheduler : str or None
+        Address of a running Dask distributed scheduler (``tcp://host:8786``);
+        when given, ``workers`` is ignored.
+    """
+    if scheduler:
+        return DaskExecutor(scheduler)
+    if workers == 1:
+        return SerialExecutor()
+    return ProcessExecutor(workers)

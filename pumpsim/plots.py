@@ -1,0 +1,230 @@
+"""Figures for ``size``, ``compare`` and ``scan`` (PNG, SVG or PDF).
+
+Drawn with matplotlib's object interface on the non-interactive Agg canvas:
+no window, no GUI toolkit, nothing global changed, so the engine stays free
+of Qt. Each figure says what it shows without the terminal output beside
+it: axes with units, the operating point, the target contour, the limits,
+and the laser cautions wherever a power appears.
+"""
+
+import textwrap
+from pathlib import Path
+
+import numpy as np
+
+from .errors import InputError
+from .lines import line
+
+FORMATS = (".png", ".svg", ".pdf")
+DPI = 150
+
+
+def check_path(path, file=None):
+    """Reject a plot file name that is not PNG, SVG or PDF (``file``: the setup, for
+    the message)."""
+    if Path(path).suffix.lower() not in FORMATS:
+        raise InputError(f"plot files end in {', '.join(FORMATS)}; got {str(path)!r}",
+                         file, "--plot")
+
+
+def _figure(size):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=size, layout="constrained")
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def _footer(fig, lines, cautions=()):
+    text = [textwrap.fill(s, 150) for s in lines]
+    text += [textwrap.fill("CAUTION: " + c, 150) for c in cautions]
+    if text:
+        fig.get_layout_engine().set(h_pad=0.1)
+        fig.supxlabel("\n".join(text), fontsize=6.5, ha="left", x=0.01, multialignment="left")
+
+
+def _save(fig, path):
+    fig.savefig(path, dpi=DPI)
+
+
+def _plain_log(axis):
+    """Log axis with ticks written 0.2, 1, 5 rather than 2 x 10^-1."""
+    from matplotlib.ticker import FuncFormatter, LogLocator
+
+    axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+    axis.set_minor_locator(LogLocator(subs=(2, 5)))
+    axis.set_minor_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+
+
+def _legend_below(ax):
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.11), fontsize=7.5, frameon=False)
+
+
+def _line_text(setup, beam):
+    b = setup.beam(beam)
+    ln = line(setup.scheme, b.lower, b.upper)
+    return f"beam '{beam}' on {b.lower} → {b.upper} ({ln.wavelength * 1e9:.1f} nm)"
+
+
+def plot_size(sizing, path):
+    """Power x waist map with the target contour, the least power, the setup and the best waist."""
+    check_path(path)
+    s, setup, beam, F = sizing.search, sizing.setup, sizing.beam, sizing.target_fraction
+    b = setup.beam(beam)
+    m = sizing.map
+    fig = _figure((8.0, 7.4))
+    ax = fig.add_subplot()
+    P, W, T = m["power"] * 1e3, m["waist"] * 1e3, m["fraction"]
+    mesh = ax.pcolormesh(P, W, T, shading="nearest", cmap="viridis")
+    fig.colorbar(mesh, ax=ax, label=f"transfer fraction into '{setup.target}'")
+    if T.min() < F < T.max():
+        cs = ax.contour(P, W, T, levels=[F], colors="white", linestyles="--", linewidths=1.5)
+        ax.clabel(cs, fmt={F: f"F = {F:g}"}, fontsize=8)
+    if s.reachable and s.power > 0:
+        ax.plot(s.power * 1e3, b.waist * 1e3, "*", ms=15, mfc="gold", mec="black",
+                label=f"least power for F at the setup's waist: {s.power * 1e3:.4g} mW "
+                      f"(re-simulated {s.outcome.transfer_fraction:.4f})")
+    inside = P[0] <= b.power * 1e3 <= P[-1] and W[0] <= b.waist * 1e3 <= W[-1]
+    ax.plot(b.power * 1e3, b.waist * 1e3, "o", ms=8, mfc="none", mec="red", mew=2,
+            label=f"setup: {b.power * 1e3:.4g} mW, waist {b.waist * 1e3:.3g} mm"
+                  + ("" if inside else " (outside the map)"))
+    w = sizing.waist
+    if w is not None:
+        bound = [f"{k} at its {v} bound" for k, v in w.at_bound.items() if v]
+        ax.plot(w.power * 1e3, w.waist * 1e3, "^", ms=10, mfc="white", mec="black",
+                label=f"best waist at {w.power * 1e3:.4g} mW: {w.waist * 1e3:.3g} mm along, "
+                      f"{w.waist_across * 1e3:.3g} mm across → {w.outcome.transfer_fraction:.4f}"
+                      + (f" ({'; '.join(bound)})" if bound else ""))
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    _plain_log(ax.xaxis)
+    _plain_log(ax.yaxis)
+    ax.set_xlim(P[0] / 1.15, P[-1] * 1.15)
+    ax.set_ylim(W[0] / 1.1, W[-1] * 1.1)
+    ax.set_xlabel(f"power of beam '{beam}' per pass (mW)")
+    across = ("waist across = waist along (not set in the setup)"
+              if "waist_across_mm" not in _beam_doc(setup, beam)
+              else f"waist across fixed at {b.waist_across * 1e3:.3g} mm")
+    ax.set_ylabel("waist along the atomic beam, 1/e² radius (mm)")
+    ax.set_title(f"{setup.scheme.name}: {_line_text(setup, beam)}\n"
+                 f"target '{setup.target}', F = {F:g}; map with {across}", fontsize=9)
+    _legend_below(ax)
+    notes = [f"Ceiling at unlimited power, this transit: {s.ceiling.transfer_fraction:.4f}. "
+             f"Branching limit at unlimited power and time: {sizing.limit.fraction:.4f}."]
+    if not s.reachable:
+        notes.insert(0, f"F = {F:g} is NOT REACHABLE: {sizing.reason}")
+    _footer(fig, notes, sizing.cautions)
+    _save(fig, path)
+
+
+def _beam_doc(setup, beam):
+    return next(b for b in setup.document.get("beam", []) if b.get("name") == beam)
+
+
+def plot_compare(setup, routes, F, curves, path):
+    """Transfer fraction against power for each route, the target line and each least power.
+
+    Parameters
+    ----------
+    setup : Setup
+    routes : list of Route
+        Ranked, best first.
+    F : float
+    curves : dict
+        Upper level -> ``(powers W, fractions)``, sorted by power.
+    path : str or Path
+    """
+    check_path(path)
+    from .routes import all_cautions
+
+    fig = _figure((8.0, 7.0))
+    ax = fig.add_subplot()
+    beam = routes[0].beam
+    for rank, r in enumerate(routes, 1):
+        p, t = curves[r.upper]
+        s = r.search
+        tail = (f"{s.power * 1e3:.4g} mW for F" if s.reachable
+                else f"F out of reach (ceiling {s.ceiling.transfer_fraction:.3f})")
+        (ln,) = ax.plot(np.asarray(p) * 1e3, t, "-", lw=1.5,
+                        label=f"{rank}. {r.lower} → {r.upper}, {r.wavelength * 1e9:.1f} nm, "
+                              f"to target {r.branching_target:.2f}, to other "
+                              f"{r.branching_other:.2f}: {tail}")
+        if s.reachable and s.power > 0:
+            ax.plot(s.power * 1e3, s.outcome.transfer_fraction, "o", color=ln.get_color(),
+                    mec="black")
+    ax.axhline(F, color="black", ls="--", lw=1)
+    ax.annotate(f"target F = {F:g}", (0.01, F), xycoords=("axes fraction", "data"),
+                va="bottom", fontsize=8)
+    ax.set_xscale("log")
+    ax.set_xlabel(f"power of beam '{beam}' per pass (mW)")
+    ax.set_ylabel(f"transfer fraction into '{setup.target}'")
+    ax.set_title(f"{setup.scheme.name}: pump routes out of '{routes[0].lower}' for beam "
+                 f"'{beam}', ranked best first\n"
+                 "dots: least power for F (re-simulated); right end of each curve: ceiling "
+                 "at unlimited power", fontsize=9)
+    _plain_log(ax.xaxis)
+    _legend_below(ax)
+    ax.grid(True, which="both", alpha=0.3)
+    _footer(fig, ["Ranking: routes reaching F first, by least power; then by ceiling."],
+            all_cautions(routes))
+    _save(fig, path)
+
+
+def plot_scan(scan, path, F=None):
+    """A 1-D scan as a curve, 2-D (or a 2-D slice of more) as a map with the F contour."""
+    check_path(path)
+    from .scan import current_value, label_of
+
+    setup, axes, T = scan.setup, scan.axes, scan.fraction
+    index, sliced = [], []
+    for d, a in enumerate(axes):
+        if d < 2:
+            index.append(slice(None))
+            continue
+        now = current_value(setup, a.key)
+        i = int(np.argmin(np.abs(np.array(a.values) - now))) if now is not None else 0
+        index.append(i)
+        sliced.append(f"{a.key} = {a.values[i]:g} {a.unit}")
+    T = T[tuple(index)]
+    fig = _figure((7.5, 5.8))
+    ax = fig.add_subplot()
+    x = np.array(axes[0].values)
+    x_now = current_value(setup, axes[0].key)
+    label = f"transfer fraction into '{setup.target}'"
+    if len(axes) == 1:
+        ax.plot(x, T, "o-", ms=3)
+        ax.set_ylabel(label)
+        if F is not None:
+            ax.axhline(F, color="black", ls="--", lw=1, label=f"target F = {F:g}")
+        if x_now is not None:
+            ax.axvline(x_now, color="red", lw=1, label=f"setup: {x_now:g} {axes[0].unit}")
+        ax.grid(True, alpha=0.3)
+    else:
+        y = np.array(axes[1].values)
+        mesh = ax.pcolormesh(x, y, T.T, shading="nearest", cmap="viridis")
+        fig.colorbar(mesh, ax=ax, label=label)
+        if F is not None and np.nanmin(T) < F < np.nanmax(T) and min(T.shape) > 1:
+            cs = ax.contour(x, y, T.T, levels=[F], colors="white", linestyles="--")
+            ax.clabel(cs, fmt={F: f"F = {F:g}"}, fontsize=8)
+        y_now = current_value(setup, axes[1].key)
+        if x_now is not None and y_now is not None:
+            ax.plot(x_now, y_now, "o", ms=8, mfc="none", mec="red", mew=2,
+                    label=f"setup: {x_now:g} {axes[0].unit}, {y_now:g} {axes[1].unit}")
+        ax.set_ylabel(label_of(setup, axes[1]))
+        if axes[1].log:
+            ax.set_yscale("log")
+            _plain_log(ax.yaxis)
+    if axes[0].log:
+        ax.set_xscale("log")
+        _plain_log(ax.xaxis)
+    ax.set_xlabel(label_of(setup, axes[0]))
+    if ax.get_legend_handles_labels()[0]:
+        _legend_below(ax)
+    title = f"{setup.scheme.name}: {Path(setup.path or 'setup').name}, target '{setup.target}'"
+    if sliced:
+        title += "\nslice at " + ", ".join(sliced)
+    ax.set_title(title, fontsize=9)
+    shows_power = any(a.key.endswith(".power_mW") for a in axes)
+    _footer(fig, [], scan.cautions if shows_power else ())
+    _save(fig, path)

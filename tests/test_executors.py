@@ -1,0 +1,38 @@
+"""The same simulations give the same numbers whichever executor runs them
+(determinism of the engine: common practice, no source)."""
+
+import numpy as np
+import pytest
+
+from pumpsim.batch import Batcher
+from pumpsim.executors import DaskExecutor, ProcessExecutor, SerialExecutor
+from pumpsim.scan import parse_axes, scan
+from pumpsim.sizing import least_power_search
+from sizing_fixtures import three_level
+
+
+def run_all(setup, executor, out):
+    axes = parse_axes(["beam.pump.power_mW=0.002:0.05:3:log", "beam.pump.waist_mm=0.5:2:2"],
+                      setup)
+    grid = scan(setup, axes, out, executor).fraction
+    (s,) = Batcher(executor).drive([least_power_search(setup, "pump", 0.5)])
+    return grid, s.power, s.outcome.transfer_fraction, s.history
+
+
+def test_serial_process_pool_and_dask_agree(tmp_path):
+    distributed = pytest.importorskip("distributed")
+    setup = three_level(tmp_path)
+    with SerialExecutor() as ex:
+        ref = run_all(setup, ex, tmp_path / "serial.h5")
+    with ProcessExecutor(2) as ex:
+        pool = run_all(setup, ex, tmp_path / "pool.h5")
+    # a local cluster on loopback only, threads in this process, reached over TCP
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False,
+                                  protocol="tcp", host="127.0.0.1",
+                                  dashboard_address=None) as cluster:
+        with DaskExecutor(cluster.scheduler_address) as ex:
+            assert ex.workers == 2
+            dask = run_all(setup, ex, tmp_path / "dask.h5")
+    for other in (pool, dask):
+        assert np.array_equal(ref[0], other[0])
+        assert ref[1:] == other[1:]
