@@ -113,3 +113,24 @@ def sublevel_report(model, propagator, nodes, z) -> SublevelReport:
     dark = driven & (exposure < DARK_RELATIVE * bright)
     return SublevelReport(basis.labels[: S - 1], level_of, profile[-1, : S - 1],
                           profile[:, : S - 1], exposure, dark)
+
+
+def sublevel_summary(report: SublevelReport, shown=0.001) -> list:
+    """Readable lines: populated sublevels, then the dark ones and what to do."""
+    lines = ["final sublevel populations (those above 0.001):"]
+    for lab, p in report.populations().items():
+        if p >= shown:
+            lines.append(f"  {lab:<24} {p:10.6f}")
+    dark = report.dark_populations()
+    if not any(p >= shown for p in dark.values()):
+        lines.append("dark sublevels: no population collects where the light cannot excite it")
+        return lines
+    lines.append(f"DARK SUBLEVELS hold {report.dark_fraction:.4f} of the atoms (excited less than "
+                 f"{DARK_RELATIVE:g} times as often as the brightest sublevel):")
+    for lab, p in dark.items():
+        if p >= shown:
+            lines.append(f"  {lab:<24} {p:10.6f}")
+    lines.append("  more power will not move them. Wanted if that is the state you pump into; "
+                 "otherwise add a repump or a polarization that reaches them (a transverse "
+                 "field also remixes them in the lab; it is not modelled, see docs/sublevel.md)")
+    return lines

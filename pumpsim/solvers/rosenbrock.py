@@ -60,22 +60,29 @@ C = ((), (-5.6688,), (-2.430093356833875, -0.2063599157091915),
       -6.058818238834054))
 M_WEIGHTS = _A5 + (1.0, 1.0)
 FD_STEP = 1e-3  # central difference of the profiles, as a fraction of the step
+KAPPA = 1.0  # largest change of a stiff rate within a step, relative to 1/h + the rate
 BLOCK_ENTRIES = 4_000_000  # nodes are integrated in blocks of about this many stored values
 
 
 class _Gather:
-    """``out[:, r] = sum_e v[:, e] x[:, col_e]`` over the entries ``e`` of row ``r``."""
+    """``out[r] = sum_e v[e] x[col_e]`` over the entries ``e`` of row ``r``.
 
-    def __init__(self, rows, cols, n_out):
+    Arrays are (entries or states, nodes): with the nodes last, every gather
+    reads whole contiguous rows.
+    """
+
+    def __init__(self, entries, rows, cols, n_out):
         order = np.argsort(rows, kind="stable")
-        self.order, self.cols, self.n_out = order, np.asarray(cols)[order], n_out
+        self.entries, self.cols = np.asarray(entries)[order], np.asarray(cols)[order]
         self.targets, self.starts = np.unique(np.asarray(rows)[order], return_index=True)
+        self.n_out = n_out
+        self.everything = np.array_equal(self.entries, np.arange(len(self.entries)))
 
     def __call__(self, v, x):
-        out = np.zeros((x.shape[0], self.n_out))
-        if len(self.order):
-            out[:, self.targets] = np.add.reduceat(v[:, self.order] * x[:, self.cols],
-                                                   self.starts, axis=1)
+        out = np.zeros((self.n_out, x.shape[1]))
+        if len(self.entries):
+            vals = v if self.everything and len(v) == len(self.entries) else v[self.entries]
+            out[self.targets] = np.add.reduceat(vals * x[self.cols], self.starts, axis=0)
         return out
 
 
@@ -95,7 +102,11 @@ def _independent_set(states, rows, cols, stiffness):
 
 
 class _Structure:
-    """Partition of one problem's states and the index maps the solves need."""
+    """Partition of one problem's states and the index maps the solves need.
+
+    Entry indices below refer to the kept entries (columns that can be
+    non-zero), sorted by row.
+    """
 
     def __init__(self, problem: SparseProblem):
         m, rows, cols = problem.states, problem.rows, problem.cols
@@ -108,73 +119,66 @@ class _Structure:
             if (grown == reached).all():
                 break
             reached = grown
-        keep = reached[cols]  # entries whose column can be non-zero
-        self.entries = np.nonzero(keep)[0]
-        rows, cols = rows[keep], cols[keep]
-        self.rows, self.cols = rows, cols
+        kept = np.nonzero(reached[cols])[0]
+        kept = kept[np.lexsort((cols[kept], rows[kept]))]
+        self.entries = kept
+        rows, cols = rows[kept], cols[kept]
         T = np.nonzero(reached & gives)[0]
         self.R = np.nonzero(reached & ~gives)[0]
         diag = rows == cols
+        self.diag = np.nonzero(diag)[0]
         stiffness = np.zeros(m)
-        if len(problem.base):
-            stiffness[rows[diag]] = np.abs(problem.base[:, self.entries[diag]]).max(axis=0)
+        stiffness[rows[diag]] = np.abs(problem.base[:, kept[diag]]).max(axis=0)
         self.F = _independent_set(list(T), rows, cols, stiffness)
         self.P = np.setdiff1d(T, self.F)
         local = np.full(m, -1)
         local[self.F] = np.arange(len(self.F))
         local[self.P] = np.arange(len(self.P))
-        in_F, in_P = np.zeros(m, bool), np.zeros(m, bool)
-        in_F[self.F], in_P[self.P] = True, True
-        in_R = np.zeros(m, bool)
-        in_R[self.R] = True
-        self.full = _Gather(rows, cols, m)
+        in_F, in_P, in_R = (np.isin(np.arange(m), x) for x in (self.F, self.P, self.R))
+        every = np.arange(len(kept))
+        self.full = _Gather(every, rows, cols, m)
         sel = diag & in_F[rows]
         self.diag_F, self.diag_F_pos = np.nonzero(sel)[0], local[rows[sel]]
-        self.FP = np.nonzero(in_F[rows] & in_P[cols])[0]
-        self.PF = np.nonzero(in_P[rows] & in_F[cols])[0]
-        self.RT = np.nonzero(in_R[rows])[0]
-        self.gather_FP = _Gather(local[rows[self.FP]], local[cols[self.FP]], len(self.F))
-        self.gather_PF = _Gather(local[rows[self.PF]], local[cols[self.PF]], len(self.P))
-        self.gather_RT = _Gather(np.searchsorted(self.R, rows[self.RT]), cols[self.RT], len(self.R))
-        self._blocks(rows, cols, local, in_P)
+        FP = np.nonzero(in_F[rows] & in_P[cols])[0]
+        PF = np.nonzero(in_P[rows] & in_F[cols])[0]
+        RT = np.nonzero(in_R[rows])[0]
+        self.gather_FP = _Gather(FP, local[rows[FP]], local[cols[FP]], len(self.F))
+        self.gather_PF = _Gather(PF, local[rows[PF]], local[cols[PF]], len(self.P))
+        self.gather_RT = _Gather(RT, np.searchsorted(self.R, rows[RT]), cols[RT], len(self.R))
+        self._blocks(rows, cols, local, in_P, FP, PF)
 
-    def _blocks(self, rows, cols, local, in_P):
+    def _blocks(self, rows, cols, local, in_P, FP, PF):
         """Coupled blocks of the Schur complement on ``P`` and where its terms go."""
         nP = len(self.P)
         PP = np.nonzero(in_P[rows] & in_P[cols])[0]
         pr, pc = local[rows[PP]], local[cols[PP]]
-        # the complement couples p and p' through every F state they share
-        fp_by_f, pf_by_f = {}, {}
-        for e, (f, p) in enumerate(zip(local[rows[self.FP]], local[cols[self.FP]])):
-            fp_by_f.setdefault(f, []).append((e, p))
-        for e, (p, f) in enumerate(zip(local[rows[self.PF]], local[cols[self.PF]])):
-            pf_by_f.setdefault(f, []).append((e, p))
-        e1, e2, ff, sr, sc = [], [], [], [], []
-        for f, ins in pf_by_f.items():
-            for a, p in ins:
-                for b, q in fp_by_f.get(f, ()):
-                    e1.append(a), e2.append(b), ff.append(f), sr.append(p), sc.append(q)
+        # the complement couples p and p' through every F state f with
+        # entries p <- f (PF) and f <- p' (FP)
+        into_f = {}
+        for e in FP:
+            into_f.setdefault(local[rows[e]], []).append(e)
+        terms = [(a, b, local[cols[a]], local[rows[a]], local[cols[b]])
+                 for a in PF for b in into_f.get(local[cols[a]], ())]
+        e1, e2, ff, sr, sc = (np.array(x, dtype=int) for x in zip(*terms)) if terms else (
+            np.zeros(0, int),) * 5
         link = sparse.coo_matrix((np.ones(len(pr) + len(sr)), (np.r_[pr, sr], np.r_[pc, sc])),
                                  shape=(nP, nP))
-        n_blocks, label = connected_components(link, directed=False) if nP else (0, [])
+        n_blocks, label = connected_components(link, directed=False) if nP else (0, None)
         self.blocks = []
         for b in range(n_blocks):
             members = np.nonzero(label == b)[0]
             pos = np.full(nP, -1)
             pos[members] = np.arange(len(members))
             k = len(members)
-            sel = label[pr] == b
-            pp_entries, pp_flat = PP[sel], pos[pr[sel]] * k + pos[pc[sel]]
-            sel = label[np.array(sr, dtype=int)] == b if sr else np.zeros(0, bool)
-            flat = (pos[np.array(sr, dtype=int)[sel]] * k + pos[np.array(sc, dtype=int)[sel]]
-                    if sr else np.zeros(0, int))
+            mine = label[pr] == b
+            sel = label[sr] == b
+            flat = pos[sr[sel]] * k + pos[sc[sel]]
             order = np.argsort(flat, kind="stable")
             targets, starts = np.unique(flat[order], return_index=True)
             self.blocks.append(dict(
-                members=members, k=k, pp=pp_entries, pp_flat=pp_flat,
-                e1=np.array(e1, dtype=int)[sel][order], e2=np.array(e2, dtype=int)[sel][order],
-                f=np.array(ff, dtype=int)[sel][order], targets=targets, starts=starts,
-                diag=np.arange(k) * (k + 1)))
+                members=members, k=k, pp=PP[mine], pp_flat=pos[pr[mine]] * k + pos[pc[mine]],
+                e1=e1[sel][order], e2=e2[sel][order], f=ff[sel][order],
+                targets=targets, starts=starts, diag=np.arange(k) * (k + 1)))
 
 
 class RosenbrockPropagator(Propagator):
@@ -194,19 +198,21 @@ class RosenbrockPropagator(Propagator):
         structure = _Structure(problem)
         n = problem.size
         step = max(1, BLOCK_ENTRIES // max(1, len(problem.rows) + problem.states))
-        finals, reduced = [], None
+        finals, reduced, steps = [], None, 0
         for lo in range(0, n, step):
             idx = slice(lo, min(lo + step, n))
             part = reducer[:, idx] if reducer is not None else None
-            final, red = self._block(problem.subset(idx), structure, z, part)
+            final, red, taken = self._block(problem.subset(idx), structure, z, part)
             finals.append(final)
+            steps = max(steps, taken)
             if red is not None:
                 reduced = red if reduced is None else reduced + red
-        return Trajectory(z, np.concatenate(finals), reduced, len(z) - 1)
+        return Trajectory(z, np.concatenate(finals), reduced, steps)
 
     def _block(self, problem, st, z, reducer):
-        base = problem.base[:, st.entries]
-        drives = problem.drives[:, :, st.entries]
+        """Integrate some nodes; returns final states, reduced path and steps taken."""
+        base = np.ascontiguousarray(problem.base[:, st.entries].T)
+        drives = np.ascontiguousarray(problem.drives[:, :, st.entries].transpose(0, 2, 1))
 
         def values(f):
             out = base.copy()
@@ -215,66 +221,86 @@ class RosenbrockPropagator(Propagator):
                     out += w * d
             return out
 
-        y = problem.y0.copy()
+        y = np.ascontiguousarray(problem.y0.T)
         reduced = None
         if reducer is not None:
-            reduced = np.empty((len(z), reducer.shape[0], y.shape[1]))
-            reduced[0] = reducer @ y
-        for j, h in enumerate(np.diff(z)):
-            z0 = z[j]
-            times = np.unique(z0 + np.array(ALPHA) * h)
-            eps = FD_STEP * h
-            prof = problem.profiles(np.r_[times, z0 - eps, z0 + eps])
-            generator = {t: values(prof[:, i]) for i, t in enumerate(times)}
-            ft = st.full(values((prof[:, -1] - prof[:, -2]) / (2 * eps)) - base, y)
-            solve = self._factor(st, generator[z0], h * GAMMA)
-            K = []
-            for i in range(6):
-                Y = y.copy()
-                for a, Kj in zip(A[i], K):
-                    Y += a * Kj
-                rhs = st.full(generator[z0 + ALPHA[i] * h], Y)
-                for c, Kj in zip(C[i], K):
-                    rhs += (c / h) * Kj
-                if GAMMAS[i]:
-                    rhs += (h * GAMMAS[i]) * ft
-                K.append(solve(rhs * (h * GAMMA)))
-            for w, Ki in zip(M_WEIGHTS, K):
-                y += w * Ki
+            reduced = np.empty((len(z), reducer.shape[0], y.shape[0]))
+            reduced[0] = reducer @ y.T
+        diag_base, diag_drives = base[st.diag], drives[:, st.diag]
+        taken = 0
+        for j, H in enumerate(np.diff(z)):
+            k = self._substeps(problem.profiles, diag_base, diag_drives, z[j], H)
+            for z0 in z[j] + H * np.arange(k) / k:
+                self._step(problem.profiles, st, values, base, y, z0, H / k)
+            taken += k
             if reduced is not None:
-                reduced[j + 1] = reducer @ y
-        return y, reduced
+                reduced[j + 1] = reducer @ y.T
+        return y.T, reduced, taken
+
+    def _step(self, profiles, st, values, base, y, z0, h):
+        """One RODAS4 step of every node from ``z0``; updates ``y`` (states, nodes) in place."""
+        times = np.unique(z0 + np.array(ALPHA) * h)
+        eps = FD_STEP * h
+        prof = profiles(np.r_[times, z0 - eps, z0 + eps])
+        generator = {t: values(prof[:, i]) for i, t in enumerate(times)}
+        ft = st.full(values((prof[:, -1] - prof[:, -2]) / (2 * eps)) - base, y)
+        solve = self._factor(st, generator[z0], h * GAMMA)
+        K = []
+        for i in range(6):
+            Y = y.copy()
+            for a, Kj in zip(A[i], K):
+                Y += a * Kj
+            rhs = st.full(generator[z0 + ALPHA[i] * h], Y)
+            for c, Kj in zip(C[i], K):
+                rhs += (c / h) * Kj
+            if GAMMAS[i]:
+                rhs += (h * GAMMAS[i]) * ft
+            K.append(solve(rhs * (h * GAMMA)))
+        for w, Ki in zip(M_WEIGHTS, K):
+            y += w * Ki
+
+    @staticmethod
+    def _substeps(profiles, diag_base, diag_drives, z0, h):
+        """Equal substeps needed so that no stiff rate changes within one by more than
+        ``KAPPA (1/h + rate)``: the Jacobian is frozen at the start of a step, and a
+        beam switching on within it would otherwise be treated explicitly."""
+        if not diag_drives.size:
+            return 1
+        f = profiles(z0 + np.array(ALPHA) * h)
+        rate = np.abs(diag_base + np.tensordot(f[:, 0], diag_drives, axes=1))
+        change = np.tensordot(np.abs(f - f[:, :1]).max(axis=1), np.abs(diag_drives), axes=1)
+        worst = float((h * change / (1 + h * rate)).max())
+        return max(1, int(np.ceil(worst / KAPPA)))
 
     @staticmethod
     def _factor(st, Jv, hg):
-        """Factor ``M = I - hg J`` (J given by its stored entries); return its solver."""
-        n = Jv.shape[0]
-        dF = np.ones((n, len(st.F)))
-        dF[:, st.diag_F_pos] -= hg * Jv[:, st.diag_F]
-        MFP, MPF = -hg * Jv[:, st.FP], -hg * Jv[:, st.PF]
+        """Factor ``M = I - hg J`` (``J`` by its kept entries, (entries, nodes));
+        return its solver for right-hand sides of shape (states, nodes)."""
+        n = Jv.shape[1]
+        dF = np.ones((len(st.F), n))
+        dF[st.diag_F_pos] -= hg * Jv[st.diag_F]
         inverses = []
         for b in st.blocks:
             k = b["k"]
-            S = np.zeros((n, k * k))
-            S[:, b["pp_flat"]] = -hg * Jv[:, b["pp"]]
-            S[:, b["diag"]] += 1.0
+            S = np.zeros((k * k, n))
+            S[b["pp_flat"]] = -hg * Jv[b["pp"]]
+            S[b["diag"]] += 1.0
             if len(b["e1"]):
-                prod = MPF[:, b["e1"]] * MFP[:, b["e2"]] / dF[:, b["f"]]
-                S[:, b["targets"]] -= np.add.reduceat(prod, b["starts"], axis=1)
-            inverses.append(np.linalg.inv(S.reshape(n, k, k)))
-        JRT = hg * Jv[:, st.RT]
+                prod = (hg * hg) * Jv[b["e1"]] * Jv[b["e2"]] / dF[b["f"]]
+                S[b["targets"]] -= np.add.reduceat(prod, b["starts"], axis=0)
+            inverses.append(np.linalg.inv(S.T.reshape(n, k, k)))
 
         def solve(rhs):
             x = np.zeros_like(rhs)
-            bF = rhs[:, st.F]
-            rP = rhs[:, st.P] - st.gather_PF(MPF, bF / dF)
+            bF = rhs[st.F]
+            rP = rhs[st.P] + hg * st.gather_PF(Jv, bF / dF)
             xP = np.empty_like(rP)
             for b, inv in zip(st.blocks, inverses):
-                xP[:, b["members"]] = np.einsum("nij,nj->ni", inv, rP[:, b["members"]])
-            x[:, st.P] = xP
-            x[:, st.F] = (bF - st.gather_FP(MFP, xP)) / dF
+                xP[b["members"]] = np.einsum("nij,jn->in", inv, rP[b["members"]])
+            x[st.P] = xP
+            x[st.F] = (bF + hg * st.gather_FP(Jv, xP)) / dF
             if len(st.R):
-                x[:, st.R] = rhs[:, st.R] + st.gather_RT(JRT, x)
+                x[st.R] = rhs[st.R] + hg * st.gather_RT(Jv, x)
             return x
 
         return solve
