@@ -68,22 +68,36 @@ class _Gather:
     """``out[r] = sum_e v[e] x[col_e]`` over the entries ``e`` of row ``r``.
 
     Arrays are (entries or states, nodes): with the nodes last, every gather
-    reads whole contiguous rows.
+    reads whole contiguous rows, and the sum over entries is one sparse
+    product (an order of magnitude faster than ``np.add.reduceat`` here).
     """
 
     def __init__(self, entries, rows, cols, n_out):
-        order = np.argsort(rows, kind="stable")
-        self.entries, self.cols = np.asarray(entries)[order], np.asarray(cols)[order]
-        self.targets, self.starts = np.unique(np.asarray(rows)[order], return_index=True)
-        self.n_out = n_out
+        self.entries, self.cols = np.asarray(entries), np.asarray(cols)
+        self.sum = _summing(rows, n_out)
         self.everything = np.array_equal(self.entries, np.arange(len(self.entries)))
+        self._buffer = np.zeros((0, 0))
 
     def __call__(self, v, x):
-        out = np.zeros((self.n_out, x.shape[1]))
-        if len(self.entries):
-            vals = v if self.everything and len(v) == len(self.entries) else v[self.entries]
-            out[self.targets] = np.add.reduceat(vals * x[self.cols], self.starts, axis=0)
-        return out
+        if not len(self.entries):
+            return np.zeros((self.sum.shape[0], x.shape[1]))
+        # one reused work array: fresh large temporaries are costly (page faults)
+        if self._buffer.shape != (len(self.cols), x.shape[1]):
+            self._buffer = np.empty((len(self.cols), x.shape[1]))
+        buf = self._buffer
+        np.take(x, self.cols, axis=0, out=buf)
+        if self.everything and len(v) == len(self.entries):
+            buf *= v
+        else:
+            buf *= v[self.entries]
+        return self.sum @ buf
+
+
+def _summing(rows, n_out):
+    """Sparse (n_out, len(rows)) matrix adding term ``e`` into row ``rows[e]``."""
+    rows = np.asarray(rows, dtype=int)
+    return sparse.csr_matrix((np.ones(len(rows)), (rows, np.arange(len(rows)))),
+                             shape=(n_out, len(rows)))
 
 
 def _independent_set(states, rows, cols, stiffness):
@@ -172,13 +186,11 @@ class _Structure:
             k = len(members)
             mine = label[pr] == b
             sel = label[sr] == b
-            flat = pos[sr[sel]] * k + pos[sc[sel]]
-            order = np.argsort(flat, kind="stable")
-            targets, starts = np.unique(flat[order], return_index=True)
             self.blocks.append(dict(
                 members=members, k=k, pp=PP[mine], pp_flat=pos[pr[mine]] * k + pos[pc[mine]],
-                e1=e1[sel][order], e2=e2[sel][order], f=ff[sel][order],
-                targets=targets, starts=starts, diag=np.arange(k) * (k + 1)))
+                e1=e1[sel], e2=e2[sel], f=ff[sel],
+                schur=_summing(pos[sr[sel]] * k + pos[sc[sel]], k * k),
+                diag=np.arange(k) * (k + 1)))
 
 
 class RosenbrockPropagator(Propagator):
@@ -213,12 +225,20 @@ class RosenbrockPropagator(Propagator):
         """Integrate some nodes; returns final states, reduced path and steps taken."""
         base = np.ascontiguousarray(problem.base[:, st.entries].T)
         drives = np.ascontiguousarray(problem.drives[:, :, st.entries].transpose(0, 2, 1))
+        pool = [np.empty_like(base) for _ in range(len(ALPHA) + 1)]
+        scratch = np.empty_like(base)
 
-        def values(f):
-            out = base.copy()
+        def values(f, slot, with_base=True):
+            """Generator entries for profile weights ``f``, written into a reused array."""
+            out = pool[slot]
+            if with_base:
+                out[...] = base
+            else:
+                out.fill(0.0)
             for w, d in zip(f, drives):
                 if w:
-                    out += w * d
+                    np.multiply(d, w, out=scratch)
+                    out += scratch
             return out
 
         y = np.ascontiguousarray(problem.y0.T)
@@ -242,8 +262,8 @@ class RosenbrockPropagator(Propagator):
         times = np.unique(z0 + np.array(ALPHA) * h)
         eps = FD_STEP * h
         prof = profiles(np.r_[times, z0 - eps, z0 + eps])
-        generator = {t: values(prof[:, i]) for i, t in enumerate(times)}
-        ft = st.full(values((prof[:, -1] - prof[:, -2]) / (2 * eps)) - base, y)
+        generator = {t: values(prof[:, i], i) for i, t in enumerate(times)}
+        ft = st.full(values((prof[:, -1] - prof[:, -2]) / (2 * eps), len(ALPHA), False), y)
         solve = self._factor(st, generator[z0], h * GAMMA)
         K = []
         for i in range(6):
@@ -286,8 +306,7 @@ class RosenbrockPropagator(Propagator):
             S[b["pp_flat"]] = -hg * Jv[b["pp"]]
             S[b["diag"]] += 1.0
             if len(b["e1"]):
-                prod = (hg * hg) * Jv[b["e1"]] * Jv[b["e2"]] / dF[b["f"]]
-                S[b["targets"]] -= np.add.reduceat(prod, b["starts"], axis=0)
+                S -= b["schur"] @ ((hg * hg) * Jv[b["e1"]] * Jv[b["e2"]] / dF[b["f"]])
             inverses.append(np.linalg.inv(S.T.reshape(n, k, k)))
 
         def solve(rhs):
@@ -296,7 +315,7 @@ class RosenbrockPropagator(Propagator):
             rP = rhs[st.P] + hg * st.gather_PF(Jv, bF / dF)
             xP = np.empty_like(rP)
             for b, inv in zip(st.blocks, inverses):
-                xP[b["members"]] = np.einsum("nij,jn->in", inv, rP[b["members"]])
+                xP[b["members"]] = (inv @ rP[b["members"]].T[:, :, None])[:, :, 0].T
             x[st.P] = xP
             x[st.F] = (bF + hg * st.gather_FP(Jv, xP)) / dF
             if len(st.R):
