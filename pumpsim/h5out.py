@@ -32,6 +32,20 @@ def write_inputs(f, setup):
     g.attrs["scheme_path"] = str(setup.scheme.path or "")
 
 
+def write_sublevels(f, rep):
+    """Group ``sublevels``: labels, final populations, populations along z, exposure, dark."""
+    g = f.create_group("sublevels")
+    g.create_dataset("labels", data=list(rep.labels), dtype=STR)
+    g.create_dataset("level_index", data=rep.level_of)
+    g.create_dataset("final_populations", data=rep.final).attrs["units"] = "fraction"
+    d = g.create_dataset("populations", data=rep.profile, compression="gzip")
+    d.attrs["units"] = "fraction"
+    d.attrs["axes"] = "z (profile/z_mm), sublevel"
+    g.create_dataset("exposure", data=rep.exposure).attrs["units"] = "excitations per atom"
+    g.create_dataset("dark", data=rep.dark)
+    g.attrs["dark_fraction"] = rep.dark_fraction
+
+
 def write_result(path, result, command=""):
     """Write one simulation result to ``path`` atomically.
 
@@ -80,6 +94,8 @@ def write_result(path, result, command=""):
             n.create_dataset(name, data=data, compression="gzip").attrs["units"] = unit
         n.attrs["levels"] = list(result.levels)
         n.attrs["beams"] = beams
+        if result.sublevels is not None:  # sublevel mode (docs/sublevel.md)
+            write_sublevels(f, result.sublevels)
         num = f.create_group("numerics")
         for k, v in result.numerics.to_dict().items():
             if isinstance(v, dict):

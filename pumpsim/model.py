@@ -12,7 +12,7 @@ import math
 import numpy as np
 
 from . import constants as K
-from .basis import LevelBasis
+from .basis import basis_for
 from .beam_shapes import shape_of
 from .lines import line
 from .solvers.base import LinearProblem
@@ -50,12 +50,12 @@ class RateModel:
     ----------
     setup : Setup
     basis : Basis, optional
-        State space; the level basis by default.
+        State space; by default the one the setup's ``mode`` names.
     """
 
     def __init__(self, setup, basis=None):
         self.setup = setup
-        self.basis = basis if basis is not None else LevelBasis(setup.scheme)
+        self.basis = basis if basis is not None else basis_for(setup)
         self.decay = self.basis.decay_generator()
         self.shapes = [shape_of(b) for b in setup.beams]
         self.lines = [line(setup.scheme, b.lower, b.upper) for b in setup.beams]

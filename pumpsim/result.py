@@ -79,6 +79,8 @@ class Result:
         Final quadrature nodes: ``v``, ``a``, ``y0``, ``weight`` and ``values``
         (levels, photons per beam, deflection per beam, per node).
     numerics : NumericsReport
+    sublevels : SublevelReport or None
+        Sublevel populations, along z too, and dark sublevels (sublevel mode).
     """
 
     setup: object
@@ -91,6 +93,7 @@ class Result:
     profile: np.ndarray
     nodes: object
     numerics: NumericsReport
+    sublevels: object = None
 
     def beam_summary(self):
         """Per beam: peak intensity (W/m^2) and on-resonance saturation parameter."""
@@ -104,7 +107,7 @@ class Result:
 
     def to_dict(self):
         """The JSON object of ``pumpsim run --json`` (file units)."""
-        return {
+        out = {
             "target": self.setup.target,
             "transfer_fraction": self.transfer_fraction,
             "final_populations": dict(self.final_populations),
@@ -113,3 +116,8 @@ class Result:
             "beams": self.beam_summary(),
             "numerics": self.numerics.to_dict(),
         }
+        if self.sublevels is not None:  # sublevel mode (docs/sublevel.md)
+            out["sublevel_populations"] = self.sublevels.populations()
+            out["dark_fraction"] = self.sublevels.dark_fraction
+            out["dark_sublevels"] = self.sublevels.dark_populations()
+        return out

@@ -10,7 +10,12 @@ span it.
 import math
 from dataclasses import dataclass
 
+from .hyperfine import Component
+from .polarization import CHOICES as POLARIZATIONS
+from .polarization import Polarization
+
 REQUIRED = object()
+SIMPLE = (float, int, str)
 
 
 @dataclass(frozen=True)
@@ -30,7 +35,9 @@ class Field:
     scale : float
         SI value = file value * scale.
     kind : type
-        ``float``, ``int`` or ``str``.
+        ``float``, ``int`` or ``str``; or a class that parses its own file
+        value (``kind.from_file(value)``, raising ``ValueError`` with the
+        reason, and ``obj.to_file()``), for values that are lists or tables.
     default : object
         File-unit default, :data:`REQUIRED`, or ``None`` (optional, no value).
     low, high : float
@@ -62,6 +69,12 @@ class Field:
 
     def check(self, value):
         """Return the reason ``value`` (file units) is not allowed, or ``None``."""
+        if self.kind not in SIMPLE:
+            try:
+                self.kind.from_file(value)
+            except ValueError as exc:
+                return str(exc)
+            return None
         if self.kind is str:
             if not isinstance(value, str):
                 return f"must be text, got {type(value).__name__} {value!r}"
@@ -84,6 +97,8 @@ class Field:
         return None
 
     def to_si(self, value):
+        if self.kind not in SIMPLE:
+            return self.kind.from_file(value)
         if self.kind is str:
             return value
         if self.kind is int:
@@ -95,6 +110,8 @@ class Field:
         decimal values typed by a user survive a load/save round trip."""
         if value is None or self.kind is str:
             return value
+        if self.kind not in SIMPLE:
+            return value.to_file()
         if self.kind is int:
             return int(value)
         return float(f"{value / self.scale:.15g}")
@@ -138,6 +155,18 @@ BEAM_FIELDS = (
        low=0.0, low_open=True, high=179.999, span=(30.0, 150.0)),
     _f("beam", "passes", "passes", "", 1, 1, "passes", kind=int, low=1, high=100,
        span=(1, 10)),
+    # sublevel mode (docs/sublevel.md); level mode ignores both
+    _f("beam", "polarization", "polarization", "", 1, "unpolarized",
+       "polarization (to the field axis)", kind=Polarization, choices=POLARIZATIONS),
+    _f("beam", "reference_F", "reference_F", "", 1, None,
+       "hyperfine component [F, F'] the detuning is measured from", kind=Component),
+)
+
+MODE_FIELDS = (
+    _f("", "mode", "mode", "", 1, "level", "state space: whole levels or magnetic sublevels",
+       kind=str, choices=("level", "sublevel")),
+    _f("field", "B_gauss", "magnetic_field", "G", 1e-4, 0.0,
+       "magnetic field along the quantization axis", span=(-10.0, 10.0)),
 )
 
 NUMERICS_FIELDS = (
@@ -146,12 +175,12 @@ NUMERICS_FIELDS = (
     _f("numerics", "tolerance", "tolerance", "", 1.0, 1e-4,
        "absolute tolerance on populations", low=1e-9, high=0.1),
     _f("numerics", "solver", "solver", "", 1, "exponential", "integrator", kind=str,
-       choices=("exponential", "radau")),
+       choices=("exponential", "radau", "rosenbrock")),
     _f("numerics", "max_nodes", "max_nodes", "", 1, 200000,
        "largest ensemble the quadrature may use", kind=int, low=1, high=100_000_000),
 )
 
-FIELDS = SOURCE_FIELDS + BEAM_FIELDS + NUMERICS_FIELDS
+FIELDS = SOURCE_FIELDS + BEAM_FIELDS + NUMERICS_FIELDS + MODE_FIELDS
 
 
 def fields_of(table: str) -> tuple:

@@ -25,6 +25,11 @@ class Level:
         (infinite for a level with no decays).
     label : str
         Free text shown in plots.
+    hfs_A, hfs_B : float
+        Magnetic dipole and electric quadrupole hyperfine constants, Hz
+        (sublevel mode; 0 without hyperfine data).
+    g_J : float or None
+        Lande factor (sublevel mode with a field); ``None`` if not given.
     """
 
     id: str
@@ -32,6 +37,9 @@ class Level:
     J: float
     lifetime: float | None = None
     label: str = ""
+    hfs_A: float = 0.0
+    hfs_B: float = 0.0
+    g_J: float | None = None
 
     @property
     def g(self) -> float:
@@ -75,6 +83,8 @@ class Scheme:
         File the scheme was read from.
     document : dict
         The file's TOML contents as read (file units), kept verbatim.
+    nuclear_spin : float
+        ``I``; with ``I > 0`` sublevel mode splits levels into ``|F, m_F>``.
     """
 
     name: str
@@ -84,6 +94,7 @@ class Scheme:
     path: str | None = None
     document: dict = field(default_factory=dict, compare=False, repr=False)
     text: str | None = field(default=None, compare=False, repr=False)
+    nuclear_spin: float = 0.0
 
     @property
     def ids(self) -> tuple:

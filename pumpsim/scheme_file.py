@@ -2,6 +2,7 @@
 
 from . import constants as K
 from .errors import InputError
+from .hyperfine import LEVEL_KEYS, read_level_structure, read_nuclear_spin
 from .scheme import Decay, Level, Scheme
 from .tomlread import check_keys, number, read_toml, table_list, text
 
@@ -33,14 +34,15 @@ def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
     """Validate a parsed scheme document (file units) and convert to SI."""
     check_keys(doc, {"species", "level", "decay"}, file, None, required=("species", "level"))
     species = doc["species"]
-    check_keys(species, {"name", "mass_u"}, file, "species", required=("mass_u",))
+    check_keys(species, {"name", "mass_u", "nuclear_spin"}, file, "species", required=("mass_u",))
     name = text(species, "name", file, "species") if "name" in species else "unnamed"
     mass = number(species, "mass_u", file, "species", positive=True) * K.amu
+    nuclear_spin = read_nuclear_spin(species, file)
 
     levels, seen = [], set()
     for raw in table_list(doc, "level", file):
-        check_keys(raw, {"id", "label", "energy_cm", "J", "lifetime_s"}, file, "level",
-                   required=("id", "energy_cm", "J"))
+        check_keys(raw, {"id", "label", "energy_cm", "J", "lifetime_s", *LEVEL_KEYS}, file,
+                   "level", required=("id", "energy_cm", "J"))
         lid = text(raw, "id", file, "level")
         if lid in seen:
             raise InputError("duplicate level id", file, "level", "id", lid)
@@ -57,7 +59,8 @@ def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
         label = raw.get("label", lid)
         if not isinstance(label, str):
             raise InputError(f"must be text, got {label!r}", file, "level", "label", lid)
-        levels.append(Level(lid, energy * 100.0 * K.h * K.c, J, life, label))
+        levels.append(Level(lid, energy * 100.0 * K.h * K.c, J, life, label,
+                            **read_level_structure(raw, lid, J, nuclear_spin, file)))
     by_id = {lv.id: lv for lv in levels}
 
     decays, modes, pairs = [], {}, set()
@@ -114,4 +117,5 @@ def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
             raise InputError(
                 f"lifetime {life:.6g} s is longer than 1/sum(A) = {1 / total:.6g} s",
                 file, "level", "lifetime_s", lid)
-    return Scheme(name, mass, tuple(levels), tuple(decays), file, doc, text_)
+    return Scheme(name, mass, tuple(levels), tuple(decays), file, doc, text_,
+                  nuclear_spin=nuclear_spin)

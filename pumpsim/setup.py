@@ -7,6 +7,7 @@ changed, using the same keys as the command line's ``--set``.
 
 from dataclasses import dataclass, field
 
+from .polarization import Polarization
 from .scheme import Scheme
 
 
@@ -64,6 +65,11 @@ class Beam:
         Angle theta between the wave vector and +z, rad.
     passes : int
         Number of passes through the same region, alternating direction.
+    polarization : Polarization
+        Relative to the field axis (sublevel mode only); every pass shares it.
+    reference_F : Component or None
+        Hyperfine component ``F -> F'`` that ``detuning`` is measured from
+        (``None``: from the line's centroid, the contract's default).
     """
 
     name: str
@@ -77,6 +83,8 @@ class Beam:
     position: float = 0.0
     angle: float = 1.5707963267948966
     passes: int = 1
+    polarization: Polarization = Polarization()
+    reference_F: object = None
 
 
 @dataclass(frozen=True)
@@ -90,7 +98,8 @@ class Numerics:
     tolerance : float
         Absolute tolerance on every reported population.
     solver : str
-        ``"exponential"`` (default) or ``"radau"`` (per-node reference).
+        ``"exponential"`` (default), ``"rosenbrock"`` (sparse, for large
+        sublevel bases) or ``"radau"`` (per-node reference).
     max_nodes : int
         Largest ensemble the adaptive quadrature may build.
     """
@@ -121,6 +130,10 @@ class Setup:
         writer saves).
     text : str or None
         The file's text, verbatim, for storing with results.
+    mode : str
+        ``"level"`` (the contract's model) or ``"sublevel"`` (docs/sublevel.md).
+    magnetic_field : float
+        Field along the quantization axis, T (sublevel mode).
     """
 
     scheme: Scheme
@@ -131,6 +144,8 @@ class Setup:
     path: str | None = None
     document: dict = field(default_factory=dict, compare=False, repr=False)
     text: str | None = field(default=None, compare=False, repr=False)
+    mode: str = "level"
+    magnetic_field: float = 0.0
 
     def beam(self, name: str) -> Beam:
         """The beam called ``name``."""

@@ -12,6 +12,7 @@ import tomllib
 from pathlib import Path
 
 from .errors import InputError
+from .hyperfine import check_component, check_zeeman_data
 from .model import z_range
 from .schema import REQUIRED, fields_of
 from .scheme_file import load_scheme
@@ -19,7 +20,7 @@ from .setup import Beam, Numerics, Setup, Source
 from .tomlread import check_keys, read_toml, table_list, text
 from .tomlwrite import dumps
 
-TOP_KEYS = {"scheme", "target", "source", "beam", "numerics"}
+TOP_KEYS = {"scheme", "target", "source", "beam", "numerics", "mode", "field"}
 INITIAL_SUM_SLACK = 1e-6  # explicit initial populations must sum to 1 within this
 NEEDS = {  # which optional source fields each kind requires
     "effusive": ("temperature_K",),
@@ -80,7 +81,23 @@ def setup_from_document(doc: dict, file=None, scheme=None, text_=None) -> Setup:
         if names.count(n) > 1:
             raise InputError(f"beam name {n!r} used twice", file, "beam", "name")
     numerics = _numerics(doc.get("numerics", {}), file, beams)
-    return Setup(scheme, target, source, beams, numerics, file, doc, text_)
+    mode = _mode(doc, file, scheme)
+    return Setup(scheme, target, source, beams, numerics, file, doc, text_, **mode)
+
+
+def _mode(doc, file, scheme):
+    """Top-level ``mode`` and the ``[field]`` table (sublevel mode, docs/sublevel.md)."""
+    out = _read_fields(doc, fields_of(""), file, None)
+    raw = doc.get("field", {})
+    fields = fields_of("field")
+    check_keys(raw, {f.key for f in fields}, file, "field")
+    out.update(_read_fields(raw, fields, file, "field"))
+    if out["mode"] == "sublevel" and out["magnetic_field"] != 0:
+        def fail(message, level):
+            raise InputError(message, scheme.path, "level", "g_J", level)
+
+        check_zeeman_data(scheme, fail)
+    return out
 
 
 def _load_named_scheme(doc, file):
@@ -166,6 +183,11 @@ def _beam(raw, i, file, scheme):
         raise InputError(f"the scheme lists no decay {upper} -> {lower}, so the line has no "
                          "strength to drive", file, table, "transition", upper)
     v = _read_fields(raw, fields, file, table)
+    if v["reference_F"] is not None:
+        def fail(message):
+            raise InputError(message, file, table, "reference_F")
+
+        check_component(scheme, lower, upper, v["reference_F"], fail)
     if v["waist_across"] is None:
         v["waist_across"] = v["waist"]
     return Beam(name=name, lower=lower, upper=upper, **v)

@@ -2,16 +2,22 @@
 
 import numpy as np
 
+from .basis import SublevelBasis
 from .ensemble import EnsembleIntegrator
 from .model import RateModel
 from .result import NumericsReport, Result
-from .solvers import ExponentialPropagator, RadauPropagator
+from .solvers import ExponentialPropagator, RadauPropagator, RosenbrockPropagator
+from .sparse_model import SparseRateModel, solver_for
+from .sublevel_report import sublevel_report
 
 
-def make_propagator(numerics):
-    """The integrator a setup's numerics ask for."""
-    if numerics.solver == "radau":
+def make_propagator(numerics, solver=None):
+    """The integrator a setup's numerics ask for (``solver`` overrides the name)."""
+    solver = solver or numerics.solver
+    if solver == "radau":
         return RadauPropagator(rtol=1e-3 * numerics.tolerance, atol=1e-5 * numerics.tolerance)
+    if solver == "rosenbrock":
+        return RosenbrockPropagator()
     return ExponentialPropagator()
 
 
@@ -22,7 +28,7 @@ def simulate(setup, basis=None, progress=None) -> Result:
     ----------
     setup : Setup
     basis : Basis, optional
-        State space (level basis by default).
+        State space (by default the one the setup's ``mode`` names).
     progress : callable, optional
         ``progress(message)`` during refinement.
 
@@ -30,24 +36,28 @@ def simulate(setup, basis=None, progress=None) -> Result:
     -------
     Result
     """
-    model = RateModel(setup, basis)
+    solver = solver_for(setup)
+    model = (SparseRateModel if solver == "rosenbrock" else RateModel)(setup, basis)
     num = setup.numerics
-    ens = EnsembleIntegrator(model, make_propagator(num), num.tolerance, num.max_nodes,
-                             progress).run()
+    propagator = make_propagator(num, solver)
+    ens = EnsembleIntegrator(model, propagator, num.tolerance, num.max_nodes, progress).run()
     levels = setup.scheme.ids + ("other",)
     L, B = len(levels), len(setup.beams)
     pops = ens.values[:L]
     names = [b.name for b in setup.beams]
     conservation = float(np.max(np.abs(ens.nodes.values[:, :L].sum(axis=1) - 1.0)))
     report = NumericsReport(
-        solver=num.solver, tolerance=num.tolerance, steps=len(ens.z) - 1,
+        solver=solver, tolerance=num.tolerance, steps=len(ens.z) - 1,
         steps_per_waist=ens.per_waist, nodes=len(ens.nodes.v),
         nodes_evaluated=ens.nodes_evaluated, angle_nodes=ens.rules["angle"],
         offset_nodes=ens.rules["offset"], speed_panels=ens.rules["speed_panels"],
         error_estimate=ens.errors, converged=ens.converged,
         conservation_error=conservation, seconds=ens.seconds)
     final = {lid: float(p) for lid, p in zip(levels, pops)}
+    sublevels = None
+    if isinstance(model.basis, SublevelBasis):
+        sublevels = sublevel_report(model, propagator, ens.nodes, ens.z)
     return Result(setup, tuple(levels), final, final[setup.target],
                   {n: float(x) for n, x in zip(names, ens.values[L:L + B])},
                   {n: float(x) for n, x in zip(names, ens.values[L + B:])},
-                  ens.z, ens.profile, ens.nodes, report)
+                  ens.z, ens.profile, ens.nodes, report, sublevels)

@@ -2,6 +2,7 @@
 
 import numpy as np
 
+from ..hyperfine import reference_offset
 from .base import Basis, Coupling
 
 
@@ -33,7 +34,9 @@ class LevelBasis(Basis):
     def couplings(self, beam):
         s = self.scheme
         gi, gk = s.level(beam.lower).g, s.level(beam.upper).g
-        return (Coupling(s.index(beam.lower), s.index(beam.upper), 1.0, gi / gk, 0.0),)
+        # a reference_F moves the laser by that component's offset from the centroid
+        return (Coupling(s.index(beam.lower), s.index(beam.upper), 1.0, gi / gk,
+                         -reference_offset(s, beam)),)
 
     def initial_state(self, level_populations):
         return np.append(np.asarray(level_populations, dtype=float), 0.0)

@@ -6,6 +6,7 @@ import sys
 from ..lines import line
 from ..safety import cautions
 from ..simulate import simulate
+from ..sublevel_report import sublevel_summary
 from .common import add_setup_arguments, print_json, setup_from_args, status
 
 
@@ -61,6 +62,8 @@ def summary(result):
             f"{b.power * 1e3:11.4g} {info[b.name]['peak_intensity_mW_cm2']:16.4g} "
             f"{info[b.name]['saturation_parameter']:8.3g} {result.photons_per_atom[b.name]:13.4f} "
             f"{result.deflection[b.name] * 1e3:18.5f}")
+    if result.sublevels is not None:
+        lines += [""] + sublevel_summary(result.sublevels)
     state = "converged" if n.converged else "NOT CONVERGED to the tolerance"
     lines += ["", f"numerics: {n.solver}, {n.steps} steps along z, {n.nodes} ensemble nodes "
               f"({n.nodes_evaluated} evaluated), tolerance {n.tolerance:g}, {state}, "

@@ -3,8 +3,11 @@
 from .base import LinearProblem, Propagator, Trajectory
 from .exponential import ExponentialPropagator
 from .radau import RadauPropagator
+from .rosenbrock import RosenbrockPropagator
+from .sparse import SparseProblem
 
-PROPAGATORS = {"exponential": ExponentialPropagator, "radau": RadauPropagator}
+PROPAGATORS = {"exponential": ExponentialPropagator, "radau": RadauPropagator,
+               "rosenbrock": RosenbrockPropagator}
 
 
 def get_propagator(name: str) -> Propagator:
@@ -13,4 +16,5 @@ def get_propagator(name: str) -> Propagator:
 
 
 __all__ = ["LinearProblem", "Propagator", "Trajectory", "ExponentialPropagator",
-           "RadauPropagator", "get_propagator", "PROPAGATORS"]
+           "RadauPropagator", "RosenbrockPropagator", "SparseProblem", "get_propagator",
+           "PROPAGATORS"]
