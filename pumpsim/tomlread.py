@@ -14,9 +14,13 @@ def read_toml(path):
     except OSError as exc:
         raise InputError(f"cannot read file ({exc.strerror or exc})", file=str(p)) from None
     try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise InputError("file is not UTF-8 text", file=str(p)) from None
+        # utf-8-sig: editors on Windows may start a UTF-8 file with a byte-order mark
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        if raw[:2] in (b"\xff\xfe", b"\xfe\xff"):
+            raise InputError("file is UTF-16 text; save it as UTF-8", file=str(p)) from None
+        raise InputError(f"file is not UTF-8 text (invalid byte at offset {exc.start})",
+                         file=str(p)) from None
     try:
         return tomllib.loads(text), text
     except tomllib.TOMLDecodeError as exc:
