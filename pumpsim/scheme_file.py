@@ -31,6 +31,9 @@ def load_scheme(path) -> Scheme:
 
 def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
     """Validate a parsed scheme document (file units) and convert to SI."""
+    if "species" not in doc and {"scheme", "source", "beam"} & doc.keys():
+        raise InputError("missing required key: this looks like a setup file, not a scheme",
+                         file, None, "species")
     check_keys(doc, {"species", "level", "decay"}, file, None, required=("species", "level"))
     species = doc["species"]
     check_keys(species, {"name", "mass_u"}, file, "species", required=("mass_u",))
