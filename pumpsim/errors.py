@@ -54,3 +54,7 @@ class InputError(ValueError):
         if level is not None:
             where.append(f"level '{shown(level)}'")
         super().__init__(f"{' '.join(where)}: {_short(message)}")
+
+
+class NumericalError(ArithmeticError):
+    """A computation that could not produce trustworthy numbers (exit code 1)."""
