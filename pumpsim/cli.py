@@ -8,6 +8,7 @@ table and key), 1 anything else. No traceback reaches the user unless
 import argparse
 import os
 import sys
+import warnings
 
 from . import __version__
 from .commands import COMMANDS
@@ -33,7 +34,12 @@ def main(argv=None):
         parser.print_help(sys.stderr)
         return 2
     try:
-        return args.handler(args) or 0
+        with warnings.catch_warnings():
+            if not os.environ.get("PUMPSIM_DEBUG"):
+                # numpy's overflow/underflow notes (e.g. a far-detuned Lorentzian going to
+                # zero) are not for users; non-finite results are refused by simulate()
+                warnings.simplefilter("ignore", RuntimeWarning)
+            return args.handler(args) or 0
     except InputError as exc:
         print(f"pumpsim: error: {exc}", file=sys.stderr)
         return 2

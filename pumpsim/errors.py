@@ -1,5 +1,27 @@
 """The one error type users see for bad input."""
 
+NAME_CHARS = 60  # longest key, table or level id shown as typed
+REASON_CHARS = 300  # longest reason; the middle of a longer one (an echoed value) is cut
+
+
+def shown(name):
+    """A key, table or level id as it can be shown on one line: as typed if it
+    is short and printable, else escaped (``repr``) and shortened."""
+    name = str(name)
+    if not name.isprintable():
+        name = repr(name)[1:-1]
+    if len(name) > NAME_CHARS:
+        name = name[: NAME_CHARS - 3] + "..."
+    return name
+
+
+def _short(reason):
+    reason = " ".join(str(reason).splitlines())
+    if len(reason) <= REASON_CHARS:
+        return reason
+    half = (REASON_CHARS - 5) // 2
+    return f"{reason[:half]} ... {reason[-half:]}"
+
 
 class InputError(ValueError):
     """A scheme or setup value that cannot be used.
@@ -26,9 +48,13 @@ class InputError(ValueError):
         self.reason = message
         where = [str(file) if file else "<setup in code>"]
         if table:
-            where.append(f"[{table}]")
-        if key:
-            where.append(f"key '{key}'")
-        if level:
-            where.append(f"level '{level}'")
-        super().__init__(f"{' '.join(where)}: {message}")
+            where.append(f"[{shown(table)}]")
+        if key is not None:
+            where.append(f"key '{shown(key)}'")
+        if level is not None:
+            where.append(f"level '{shown(level)}'")
+        super().__init__(f"{' '.join(where)}: {_short(message)}")
+
+
+class NumericalError(ArithmeticError):
+    """A computation that could not produce trustworthy numbers (exit code 1)."""

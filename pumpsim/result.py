@@ -7,6 +7,8 @@ import numpy as np
 from .beam_shapes import shape_of
 from .lines import line
 
+CONSERVATION_LIMIT = 1e-9  # every node's populations sum to 1 within this, or the run is flagged
+
 
 @dataclass(frozen=True)
 class NumericsReport:
@@ -29,7 +31,8 @@ class NumericsReport:
     error_estimate : dict
         ``ode``, ``angle_offset``, ``speed`` and ``total`` (population units).
     converged : bool
-        Whether every estimate met its share of the tolerance.
+        Whether every estimate met its share of the tolerance and every node's
+        populations summed to 1 within ``CONSERVATION_LIMIT``.
     conservation_error : float
         Largest ``|sum of populations - 1|`` over nodes.
     seconds : float
@@ -52,6 +55,33 @@ class NumericsReport:
 
     def to_dict(self):
         return dict(self.__dict__)
+
+    def warnings(self):
+        """Plain-words reasons the numbers are not converged, and by how much
+        (an empty list when they are)."""
+        if self.converged:
+            return []
+        out = []
+        e = self.error_estimate
+        parts = (f"ode {e['ode']:.1e}, angle/offset {e['angle_offset']:.1e}, "
+                 f"speed {e['speed']:.1e}")
+        hint = ("the grid along z reached its finest spacing" if e["ode"] >= e["speed"]
+                and e["ode"] >= e["angle_offset"] else
+                f"raise numerics.max_nodes (now {self.nodes_evaluated} nodes evaluated) or "
+                "loosen numerics.tolerance")
+        if e["total"] > self.tolerance:
+            out.append(f"NOT converged: error estimate {e['total']:.2e} exceeds the tolerance "
+                       f"{self.tolerance:g} by {e['total'] / self.tolerance:.3g} times "
+                       f"({parts}); {hint}")
+        elif self.conservation_error <= CONSERVATION_LIMIT:
+            out.append(f"NOT converged: refinement stopped before every part met its share of "
+                       f"the tolerance {self.tolerance:g} (error estimate {e['total']:.2e}: "
+                       f"{parts}); {hint}")
+        if self.conservation_error > CONSERVATION_LIMIT:
+            out.append(f"NOT converged: node populations sum to 1 only within "
+                       f"{self.conservation_error:.1e} (limit {CONSERVATION_LIMIT:g}); the "
+                       "rate equations are stiffer than the integrator handles exactly")
+        return out
 
 
 @dataclass(frozen=True)

@@ -122,37 +122,44 @@ def _f(table, key, attr, unit, scale, default, label, **kw):
 
 
 MM, MRAD, MHZ, MW, DEG = 1e-3, 1e-3, 1e6, 1e-3, math.pi / 180.0
+# Physical ranges below are generous on purpose: they keep out only values no
+# experiment has (an apparatus longer than 10 m, a waist below 0.1 um, more
+# than 100 kW, speeds below 1 cm/s or near c, detunings beyond an optical
+# frequency), which would otherwise overflow the arithmetic or build
+# absurdly long integration grids. Common practice, no source.
+ROOM_MM = 1e4
 
 SOURCE_FIELDS = (
     _f("source", "kind", "kind", "", 1, REQUIRED, "source kind", kind=str,
        choices=("effusive", "gaussian", "monoenergetic")),
     _f("source", "temperature_K", "temperature", "K", 1.0, None, "source temperature",
-       low=0.0, low_open=True, span=(10.0, 3000.0)),
+       low=0.1, high=1e5, span=(10.0, 3000.0)),
     _f("source", "speed_m_s", "speed", "m/s", 1.0, None, "beam speed",
-       low=0.0, low_open=True, span=(10.0, 3000.0)),
+       low=0.01, high=1e7, span=(10.0, 3000.0)),
     _f("source", "speed_spread_m_s", "speed_spread", "m/s", 1.0, None, "speed spread (rms)",
-       low=0.0, low_open=True, span=(1.0, 1000.0)),
+       low=1e-3, high=1e7, span=(1.0, 1000.0)),
     _f("source", "divergence_rms_mrad", "divergence_rms", "mrad", MRAD, 0.0,
-       "divergence (rms)", low=0.0, span=(0.0, 50.0)),
+       "divergence (rms)", low=0.0, high=500.0, span=(0.0, 50.0)),
     _f("source", "width_rms_mm", "width_rms", "mm", MM, 0.0, "beam size across laser (rms)",
-       low=0.0, span=(0.0, 10.0)),
+       low=0.0, high=ROOM_MM, span=(0.0, 10.0)),
 )
 
 BEAM_FIELDS = (
     _f("beam", "power_mW", "power", "mW", MW, REQUIRED, "power",
-       low=0.0, span=(0.01, 1000.0), log=True),
+       low=0.0, high=1e8, span=(0.01, 1000.0), log=True),
     _f("beam", "waist_mm", "waist", "mm", MM, REQUIRED, "waist along beam (1/e² radius)",
-       low=0.0, low_open=True, span=(0.05, 20.0), log=True),
+       low=1e-4, high=ROOM_MM, span=(0.05, 20.0), log=True),
     _f("beam", "waist_across_mm", "waist_across", "mm", MM, None,
-       "waist across beam (1/e² radius)", low=0.0, low_open=True, span=(0.05, 20.0), log=True),
+       "waist across beam (1/e² radius)", low=1e-4, high=ROOM_MM, span=(0.05, 20.0),
+       log=True),
     _f("beam", "detuning_MHz", "detuning", "MHz", MHZ, 0.0, "detuning (laser − line)",
-       span=(-500.0, 500.0)),
+       low=-1e9, high=1e9, span=(-500.0, 500.0)),
     _f("beam", "linewidth_MHz", "linewidth", "MHz", MHZ, 0.0, "laser linewidth (FWHM)",
-       low=0.0, span=(0.0, 100.0)),
+       low=0.0, high=1e9, span=(0.0, 100.0)),
     _f("beam", "position_mm", "position", "mm", MM, 0.0, "position along atomic beam",
-       span=(-200.0, 200.0)),
+       low=-ROOM_MM, high=ROOM_MM, span=(-200.0, 200.0)),
     _f("beam", "angle_deg", "angle", "deg", DEG, 90.0, "crossing angle",
-       low=0.0, low_open=True, high=179.999, span=(30.0, 150.0)),
+       low=0.001, high=179.999, span=(30.0, 150.0)),
     _f("beam", "passes", "passes", "", 1, 1, "passes", kind=int, low=1, high=100,
        span=(1, 10)),
     # sublevel mode (docs/sublevel.md); level mode ignores both
@@ -170,8 +177,10 @@ MODE_FIELDS = (
 )
 
 NUMERICS_FIELDS = (
-    _f("numerics", "start_mm", "start", "mm", MM, None, "integration start"),
-    _f("numerics", "end_mm", "end", "mm", MM, None, "integration end"),
+    _f("numerics", "start_mm", "start", "mm", MM, None, "integration start",
+       low=-ROOM_MM, high=ROOM_MM),
+    _f("numerics", "end_mm", "end", "mm", MM, None, "integration end",
+       low=-ROOM_MM, high=ROOM_MM),
     _f("numerics", "tolerance", "tolerance", "", 1.0, 1e-4,
        "absolute tolerance on populations", low=1e-9, high=0.1),
     _f("numerics", "solver", "solver", "", 1, "exponential", "integrator", kind=str,

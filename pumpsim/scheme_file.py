@@ -8,6 +8,15 @@ from .tomlread import check_keys, number, read_toml, table_list, text
 
 WAVELENGTH_AGREEMENT = 1e-4  # files.md: a given wavelength agrees with energies to 1 part in 1e4
 SUM_SLACK = 1e-9  # float slack on "branchings sum to at most 1" and the lifetime check
+# Physical ranges (file units). Generous on purpose: they keep out only numbers
+# no atom has, which would otherwise overflow the arithmetic downstream
+# (sigma0 ~ lambda^2, rates ~ 1/lifetime). Common practice, no source.
+MASS_U = (0.1, 1e6)  # muonium (0.11 u) to large molecules and clusters
+ENERGY_CM = (0.0, 1e7)  # up to 1 nm above the ground level
+J_MAX = 1000.0
+LIFETIME_S = (1e-15, 1e20)  # femtosecond autoionising levels to "practically stable"
+A_PER_S = (1e-30, 1e15)
+MIN_GAP_CM = 1e-4  # a decay needs this energy gap: 3 MHz, a wavelength below 100 m
 
 
 def load_scheme(path) -> Scheme:
@@ -32,11 +41,15 @@ def load_scheme(path) -> Scheme:
 
 def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
     """Validate a parsed scheme document (file units) and convert to SI."""
+    if "species" not in doc and {"scheme", "source", "beam"} & doc.keys():
+        raise InputError("missing required key: this looks like a setup file, not a scheme",
+                         file, None, "species")
     check_keys(doc, {"species", "level", "decay"}, file, None, required=("species", "level"))
     species = doc["species"]
     check_keys(species, {"name", "mass_u", "nuclear_spin"}, file, "species", required=("mass_u",))
     name = text(species, "name", file, "species") if "name" in species else "unnamed"
-    mass = number(species, "mass_u", file, "species", positive=True) * K.amu
+    mass = number(species, "mass_u", file, "species", low=MASS_U[0], high=MASS_U[1],
+                  unit="u") * K.amu
     nuclear_spin = read_nuclear_spin(species, file)
 
     levels, seen = [], set()
@@ -49,13 +62,15 @@ def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
         if lid == "other":
             raise InputError("'other' is reserved for the unlisted-decay sink", file, "level", "id", lid)
         seen.add(lid)
-        energy = number(raw, "energy_cm", file, "level", nonnegative=True, level=lid)
-        J = number(raw, "J", file, "level", nonnegative=True, level=lid)
+        energy = number(raw, "energy_cm", file, "level", low=ENERGY_CM[0], high=ENERGY_CM[1],
+                        unit="cm^-1", level=lid)
+        J = number(raw, "J", file, "level", low=0.0, high=J_MAX, level=lid)
         if not (2 * J).is_integer():
             raise InputError(f"must be a whole or half-integer, got {J!r}", file, "level", "J", lid)
         life = None
         if "lifetime_s" in raw:
-            life = number(raw, "lifetime_s", file, "level", positive=True, level=lid)
+            life = number(raw, "lifetime_s", file, "level", low=LIFETIME_S[0],
+                          high=LIFETIME_S[1], unit="s", level=lid)
         label = raw.get("label", lid)
         if not isinstance(label, str):
             raise InputError(f"must be text, got {label!r}", file, "level", "label", lid)
@@ -79,6 +94,9 @@ def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
         if gap <= 0:
             raise InputError(f"upper level must lie above lower level '{lo}'", file, "decay",
                              "upper", up)
+        if gap < MIN_GAP_CM * 100.0 * K.h * K.c * (1 - 1e-6):  # slack: energies up to 1e7
+            raise InputError(f"levels of a decay must be at least {MIN_GAP_CM:g} cm^-1 apart "
+                             f"(lower level '{lo}')", file, "decay", "upper", up)
         has_a, has_b = "A_per_s" in raw, "branching" in raw
         if has_a == has_b:
             raise InputError("give exactly one of A_per_s or branching", file, "decay",
@@ -88,7 +106,8 @@ def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
             raise InputError("decays of one upper level must all use A_per_s or all branching",
                              file, "decay", mode, up)
         if has_a:
-            rate = number(raw, "A_per_s", file, "decay", positive=True, level=up)
+            rate = number(raw, "A_per_s", file, "decay", low=A_PER_S[0], high=A_PER_S[1],
+                          unit="1/s", level=up)
         else:
             frac = number(raw, "branching", file, "decay", positive=True, level=up)
             if frac > 1:
@@ -97,6 +116,9 @@ def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
                 raise InputError("branching needs lifetime_s on the upper level", file,
                                  "decay", "branching", up)
             rate = frac / by_id[up].lifetime
+            if not A_PER_S[0] <= rate <= A_PER_S[1]:
+                raise InputError(f"gives A = {rate:.3g} 1/s, outside {A_PER_S[0]:g} to "
+                                 f"{A_PER_S[1]:g} 1/s", file, "decay", "branching", up)
         wl_energy = K.h * K.c / gap
         wl = wl_energy
         if "wavelength_nm" in raw:

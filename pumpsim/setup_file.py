@@ -103,8 +103,13 @@ def _mode(doc, file, scheme):
 def _load_named_scheme(doc, file):
     name = text(doc, "scheme", file, None)
     base = Path(file).parent if file else Path.cwd()
-    path = (base / name)
-    if not path.is_file():
+    path = base / name
+    try:
+        found = path.is_file()
+    except OSError as exc:  # e.g. a name too long for the file system
+        raise InputError(f"scheme file cannot be opened ({exc.strerror or exc})", file, None,
+                         "scheme") from None
+    if not found:
         raise InputError(f"scheme file not found: {path}", file, None, "scheme")
     return load_scheme(path)
 

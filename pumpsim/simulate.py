@@ -4,8 +4,9 @@ import numpy as np
 
 from .basis import SublevelBasis
 from .ensemble import EnsembleIntegrator
+from .errors import NumericalError
 from .model import RateModel
-from .result import NumericsReport, Result
+from .result import CONSERVATION_LIMIT, NumericsReport, Result
 from .solvers import ExponentialPropagator, RadauPropagator, RosenbrockPropagator
 from .sparse_model import SparseRateModel, solver_for
 from .sublevel_report import sublevel_report
@@ -45,13 +46,15 @@ def simulate(setup, basis=None, progress=None) -> Result:
     L, B = len(levels), len(setup.beams)
     pops = ens.values[:L]
     names = [b.name for b in setup.beams]
+    _check_finite(ens)
     conservation = float(np.max(np.abs(ens.nodes.values[:, :L].sum(axis=1) - 1.0)))
     report = NumericsReport(
         solver=solver, tolerance=num.tolerance, steps=len(ens.z) - 1,
         steps_per_waist=ens.per_waist, nodes=len(ens.nodes.v),
         nodes_evaluated=ens.nodes_evaluated, angle_nodes=ens.rules["angle"],
         offset_nodes=ens.rules["offset"], speed_panels=ens.rules["speed_panels"],
-        error_estimate=ens.errors, converged=ens.converged,
+        error_estimate=ens.errors,
+        converged=bool(ens.converged and conservation <= CONSERVATION_LIMIT),
         conservation_error=conservation, seconds=ens.seconds)
     final = {lid: float(p) for lid, p in zip(levels, pops)}
     sublevels = None
@@ -61,3 +64,15 @@ def simulate(setup, basis=None, progress=None) -> Result:
                   {n: float(x) for n, x in zip(names, ens.values[L:L + B])},
                   {n: float(x) for n, x in zip(names, ens.values[L + B:])},
                   ens.z, ens.profile, ens.nodes, report, sublevels)
+
+
+def _check_finite(ens):
+    """Refuse to report numbers from an integration that overflowed."""
+    bad = ~np.isfinite(ens.nodes.values).all(axis=1)
+    if bad.any() or not (np.isfinite(ens.values).all() and np.isfinite(ens.profile).all()):
+        v = ens.nodes.v[bad] if bad.any() else ens.nodes.v
+        raise NumericalError(
+            f"the integration broke down (populations not finite at {int(bad.sum())} of "
+            f"{bad.size} ensemble nodes, speeds down to {v.min():.3g} m/s): the rate "
+            "equations are too stiff for the integrator at these settings; check the "
+            "slowest speeds, the shortest lifetimes and the largest waists")

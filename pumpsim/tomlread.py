@@ -1,5 +1,6 @@
 """Reading TOML files and checking table keys, with errors that name the place."""
 
+import math
 import tomllib
 from pathlib import Path
 
@@ -14,9 +15,13 @@ def read_toml(path):
     except OSError as exc:
         raise InputError(f"cannot read file ({exc.strerror or exc})", file=str(p)) from None
     try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise InputError("file is not UTF-8 text", file=str(p)) from None
+        # utf-8-sig: editors on Windows may start a UTF-8 file with a byte-order mark
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        if raw[:2] in (b"\xff\xfe", b"\xfe\xff"):
+            raise InputError("file is UTF-16 text; save it as UTF-8", file=str(p)) from None
+        raise InputError(f"file is not UTF-8 text (invalid byte at offset {exc.start})",
+                         file=str(p)) from None
     try:
         return tomllib.loads(text), text
     except tomllib.TOMLDecodeError as exc:
@@ -49,10 +54,14 @@ def table_list(doc: dict, key: str, file, required=True):
     return items
 
 
-def number(table, key, file, name, *, positive=False, nonnegative=False, level=None):
-    """A finite number from a table, with optional sign checks."""
-    import math
+def number(table, key, file, name, *, positive=False, nonnegative=False, low=None,
+           high=None, unit="", level=None):
+    """A finite number from a table, with optional sign checks and bounds.
 
+    ``positive`` and ``nonnegative`` are sign checks; ``low`` and ``high``
+    (inclusive, same units as the file, named ``unit`` in messages) are the
+    physical range.
+    """
     value = table[key]
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise InputError(f"must be a number, got {value!r}", file, name, key, level)
@@ -62,6 +71,11 @@ def number(table, key, file, name, *, positive=False, nonnegative=False, level=N
         raise InputError(f"must be > 0, got {value!r}", file, name, key, level)
     if nonnegative and value < 0:
         raise InputError(f"must be >= 0, got {value!r}", file, name, key, level)
+    u = f" {unit}" if unit else ""
+    if low is not None and value < low:
+        raise InputError(f"must be >= {low:g}{u}, got {value!r}", file, name, key, level)
+    if high is not None and value > high:
+        raise InputError(f"must be <= {high:g}{u}, got {value!r}", file, name, key, level)
     return float(value)
 
 

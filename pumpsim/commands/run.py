@@ -29,6 +29,9 @@ def handle(args):
     warnings = cautions(setup)
     if args.json:
         out = result.to_dict()
+        # at the top, so that a script reading transfer_fraction cannot miss them
+        out["converged"] = result.numerics.converged
+        out["warnings"] = result.numerics.warnings()
         out["cautions"] = warnings
         print_json(out)
         for w in warnings:
@@ -49,7 +52,9 @@ def summary(result):
     n = result.numerics
     lines = [f"setup   {s.path}", f"species {s.scheme.name}",
              f"transfer fraction into '{s.target}': {result.transfer_fraction:.4f}"
-             f"  (error estimate {n.error_estimate['total']:.1e})", "", "final populations:"]
+             f"  (error estimate {n.error_estimate['total']:.1e}"
+             f"{'' if n.converged else ', NOT CONVERGED: see below'})", "",
+             "final populations:"]
     for lid, p in result.final_populations.items():
         lines.append(f"  {lid:<10} {p:10.6f}")
     lines += ["", f"  {'beam':<10} {'line':<12} {'λ (nm)':>9} {'power (mW)':>11} "
@@ -64,8 +69,9 @@ def summary(result):
             f"{result.deflection[b.name] * 1e3:18.5f}")
     if result.sublevels is not None:
         lines += [""] + sublevel_summary(result.sublevels)
-    state = "converged" if n.converged else "NOT CONVERGED to the tolerance"
+    state = "converged" if n.converged else "NOT CONVERGED"
     lines += ["", f"numerics: {n.solver}, {n.steps} steps along z, {n.nodes} ensemble nodes "
               f"({n.nodes_evaluated} evaluated), tolerance {n.tolerance:g}, {state}, "
               f"{n.seconds:.2f} s"]
+    lines += ["WARNING: " + w for w in n.warnings()]
     return "\n".join(lines)
