@@ -4,6 +4,6 @@ Each module provides ``add_parser(subparsers)``, which registers the
 subcommand and sets ``handler`` to a function ``handler(args) -> int``.
 """
 
-from . import check, info, run
+from . import check, gui, info, run
 
-COMMANDS = (run, info, check)
+COMMANDS = (run, info, check, gui)
