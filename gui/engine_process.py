@@ -39,30 +39,58 @@ def _serve(conn):
             conn.send((False, f"{type(exc).__name__}: {exc}"))
 
 
-class EngineProcess:
-    """One child process serving :func:`pumpsim.simulate`, for one caller thread at a time."""
+class _Child:
+    """A started child process and our end of its pipe."""
 
-    def __init__(self):
+    def __init__(self, ctx):
+        self.conn, theirs = ctx.Pipe()
+        self.proc = ctx.Process(target=_serve, args=(theirs,), daemon=True, name="pumpsim-engine")
+        self.proc.start()
+        theirs.close()
+
+    def end(self):
+        if self.proc.is_alive():
+            self.proc.kill()
+        self.proc.join(1.0)
+        self.conn.close()
+
+
+class EngineProcess:
+    """A child process serving :func:`pumpsim.simulate`, for one caller thread at a time.
+
+    A second child waits ready: ending a superseded run then costs nothing,
+    since the next request goes straight to the spare while a new spare
+    imports the engine in the background (about a second).
+
+    Parameters
+    ----------
+    start : bool
+        Start the children now rather than at the first :meth:`simulate`.
+    """
+
+    def __init__(self, start=True):
         self._ctx = multiprocessing.get_context("spawn")  # never fork a process running Qt
         self._lock = threading.Lock()
         self.closed = False
-        self._spawn()
+        self.child = self.spare = None
+        if start:
+            self._ready()
 
-    def _spawn(self):
-        self.conn, child = self._ctx.Pipe()
-        self.proc = self._ctx.Process(target=_serve, args=(child,), daemon=True,
-                                      name="pumpsim-engine")
-        self.proc.start()
-        child.close()
-
-    def _end(self):
+    def _ready(self):
         with self._lock:
-            if self.proc.is_alive():
-                self.proc.kill()
-            self.proc.join()
-            self.conn.close()
-            if not self.closed:
-                self._spawn()
+            if self.closed:
+                return
+            if self.child is None:
+                self.child, self.spare = self.spare or _Child(self._ctx), None
+            if self.spare is None:
+                self.spare = _Child(self._ctx)
+
+    def _replace(self):
+        """End the current child (its run is stale or it died) and take the spare."""
+        with self._lock:
+            self.child.end()
+            self.child = None
+        self._ready()
 
     def simulate(self, setup, superseded=lambda: False, tolerance=None):
         """:func:`pumpsim.simulate` on ``setup`` (optionally at another tolerance).
@@ -76,28 +104,31 @@ class EngineProcess:
         """
         if superseded() or self.closed:
             raise Superseded("before start")
-        self.conn.send((setup, tolerance))
-        while not self.conn.poll(POLL_S):
+        self._ready()
+        child = self.child
+        child.conn.send((setup, tolerance))
+        while not child.conn.poll(POLL_S):
             if superseded() or self.closed:
-                self._end()
+                self._replace()
                 raise Superseded("stopped")
-            if not self.proc.is_alive():
-                self._end()
+            if not child.proc.is_alive():
+                self._replace()
                 raise EngineFailed("the engine process stopped unexpectedly")
         try:
-            ok, payload = self.conn.recv()
+            ok, payload = child.conn.recv()
         except (EOFError, OSError):
-            self._end()
             if self.closed:
                 raise Superseded("closed") from None
+            self._replace()
             raise EngineFailed("the engine process stopped unexpectedly") from None
         if not ok:
             raise EngineFailed(payload)
         return payload
 
     def close(self):
-        """End the child; a call waiting in :meth:`simulate` raises :class:`Superseded`."""
-        self.closed = True
+        """End the children; a call waiting in :meth:`simulate` raises :class:`Superseded`."""
         with self._lock:
-            if self.proc.is_alive():
-                self.proc.kill()
+            self.closed = True
+            for c in (self.child, self.spare):
+                if c is not None:
+                    c.end()

@@ -31,6 +31,7 @@ class PlotView(QWidget):
         self.caption.setWordWrap(True)
         layout.addWidget(self.caption)
         self.figure = self.plot
+        self._structure = None
 
     def apply_theme(self, theme):
         self.theme = theme
@@ -38,11 +39,27 @@ class PlotView(QWidget):
         self.legend.setLabelTextColor(theme.text)
         self.legend.setBrush(pg.mkBrush(theme.panel + "d8"))
         self.legend.setPen(pg.mkPen(theme.rule))
+        self._structure = None
         self.redraw()
 
     def clear(self):
         self.plot.getPlotItem().clear()
         self.legend.clear()
+        self._structure = None
+
+    def rebuild_needed(self, structure):
+        """True (after clearing the plot) when what is drawn changed shape.
+
+        Making plot items costs far more than giving them new data, so views
+        keep their items while the structure (levels, beams, theme) stays, and
+        only call ``setData`` on them: a slider drag then redraws quickly.
+        """
+        structure = (self.theme.name, structure)
+        if structure == self._structure:
+            return False
+        self.clear()
+        self._structure = structure
+        return True
 
     def redraw(self):
         """Draw the current data again (after a theme change)."""

@@ -48,34 +48,46 @@ class ProfileView(PlotView):
         self.redraw()
 
     def redraw(self):
-        self.clear()
         if self.live is None:
+            self.clear()
             return
         r, t = self.live.result, self.theme
         setup = r.setup
-        z_mm = r.z * 1e3
+        beams = [(b, line(setup.scheme, b.lower, b.upper).wavelength * 1e9) for b in setup.beams]
+        if self.rebuild_needed((r.levels, setup.target, tuple((b.name, nm) for b, nm in beams))):
+            self._build(setup, r.levels, beams)
         fine = np.linspace(r.z[0], r.z[-1], SHADE_POINTS)
-        for b in setup.beams:
-            nm = line(setup.scheme, b.lower, b.upper).wavelength * 1e9
-            colour = wavelength_colour(nm)
-            item = pg.PlotDataItem(fine * 1e3, shape_of(b).along(fine), pen=pg.mkPen(colour, width=1),
-                                   fillLevel=0.0, brush=pg.mkBrush(colour + SHADE_ALPHA),
-                                   name=f"laser “{b.name}” {nm:.0f} nm")
-            self.plot.addItem(item)
-        n = len(r.levels)
-        for i, lid in enumerate(r.levels):
-            width = 3.2 if lid == setup.target else 2.0
-            style = pg.QtCore.Qt.DashLine if lid == "other" else pg.QtCore.Qt.SolidLine
-            pen = pg.mkPen(t.level_colour(i, n), width=width, style=style)
-            self.plot.plot(z_mm, r.profile[:, i], pen=pen, name=self._level_name(setup, lid))
+        for (b, _), item in zip(beams, self.shades):
+            item.setData(fine * 1e3, shape_of(b).along(fine))
+        for i, item in enumerate(self.lines):
+            item.setData(r.z * 1e3, r.profile[:, i])
+        self.goal.setVisible(self.wanted is not None)
         if self.wanted is not None:
-            goal = pg.InfiniteLine(self.wanted, angle=0, pen=pg.mkPen(t.target, width=1,
-                                                                       style=pg.QtCore.Qt.DotLine),
-                                   label=f"goal {self.wanted:.0%} in {setup.target}",
-                                   labelOpts={"position": 0.08, "color": t.target})
-            self.plot.addItem(goal)
+            self.goal.setValue(self.wanted)
+            self.goal.label.setFormat(f"goal {self.wanted:.0%} in {setup.target}")
         set_title(self.plot, stage_text(self.live), t,
                   t.muted if self.live.stage == "quick" else t.text)
+
+    def _build(self, setup, levels, beams):
+        t = self.theme
+        self.shades = []
+        for b, nm in beams:
+            colour = wavelength_colour(nm)
+            item = pg.PlotDataItem(pen=pg.mkPen(colour, width=1), fillLevel=0.0,
+                                   brush=pg.mkBrush(colour + SHADE_ALPHA),
+                                   name=f"laser “{b.name}” {nm:.0f} nm")
+            self.plot.addItem(item)
+            self.shades.append(item)
+        self.lines = []
+        for i, lid in enumerate(levels):
+            width = 3.2 if lid == setup.target else 2.0
+            style = pg.QtCore.Qt.DashLine if lid == "other" else pg.QtCore.Qt.SolidLine
+            pen = pg.mkPen(t.level_colour(i, len(levels)), width=width, style=style)
+            self.lines.append(self.plot.plot(pen=pen, name=self._level_name(setup, lid)))
+        self.goal = pg.InfiniteLine(0.0, angle=0, pen=pg.mkPen(t.target, width=1,
+                                                               style=pg.QtCore.Qt.DotLine),
+                                    label="goal", labelOpts={"position": 0.08, "color": t.target})
+        self.plot.addItem(self.goal)
 
     @staticmethod
     def _level_name(setup, lid):

@@ -25,7 +25,8 @@ from .engine_process import EngineProcess
 from .evaluate import Superseded, quick_estimate
 
 STAGES = ("quick", "engine")  # in the order a request's results arrive and rank
-ENGINE_QUIET_S = 0.12  # the engine stage starts once a request has stood this long
+ENGINE_QUIET_S = 0.25  # the engine stage starts once a request has stood this long (a drag
+# sends moves far more often, so runs are rarely started only to be ended)
 STOP_WAIT_MS = 10_000  # closing waits this long for a lane's current step to end
 
 
@@ -214,7 +215,7 @@ class StudyCompute(QObject):
 
     def __init__(self, parent=None):
         super().__init__(parent)
-        self.engine = EngineProcess()
+        self.engine = EngineProcess(start=False)  # most sessions may never open a study
         self.lane = Lane("studies")
         self.lane.start()
 
