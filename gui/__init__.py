@@ -1,5 +1,24 @@
-"""Desktop window for pumpsim (PySide6 + pyqtgraph); a client of the engine's API.
+"""Desktop window for pumpsim (PySide6 + pyqtgraph), a client of the engine's API.
 
-Installed under the import name ``pumpsim_gui``. The window itself is built in its
-own issue; this package is a placeholder until then.
+Installed under the import name ``pumpsim_gui``; the engine never imports it.
+Start it with ``pumpsim gui [SETUP]`` or :func:`run`. Modules:
+
+``window``      the main window (owns the setup, wires the rest)
+``controls``    the setup panel, generated from ``pumpsim.schema.FIELDS``
+``field_row``   one control for one schema field (slider, entry, unit)
+``edits``       changing a setup through ``--set`` keys (no Qt)
+``worker``      worker threads, request generations, streamed results
+``evaluate``    the quick estimate and the engine run (no Qt)
+``studies``     power, power x waist and route sweeps (no Qt)
+``*_view``      one module per tab; ``readouts``, ``banners`` around them
+``theme``       the light and dark themes
+``files``       open, save and export
+``app``         start-up and the screenshot mode
 """
+
+
+def run(setup, screenshot=None, theme="light"):
+    """Open the window on ``setup``; see :func:`pumpsim_gui.app.run`."""
+    from .app import run as _run
+
+    return _run(setup, screenshot, theme)

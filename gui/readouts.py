@@ -1,0 +1,94 @@
+"""The headline strip: transfer fraction, what is shown (quick or converged),
+and per beam photons per atom, deflection, peak intensity and saturation
+parameter."""
+
+from PySide6.QtCore import Qt
+from PySide6.QtWidgets import QFrame, QGridLayout, QHBoxLayout, QLabel, QVBoxLayout
+
+from .profile_view import stage_text
+
+STAGE_WORDS = {"quick": "quick estimate", "engine": "converged", "unconverged": "not converged",
+               "waiting": "computing…"}
+COLUMNS = ("laser", "photons per atom", "deflection (mrad)", "peak intensity (mW/cm²)",
+           "saturation parameter s₀")
+
+
+def _label(text="", name=None, align=Qt.AlignLeft):
+    label = QLabel(text)
+    if name:
+        label.setObjectName(name)
+    label.setAlignment(align | Qt.AlignVCenter)
+    return label
+
+
+class Readouts(QFrame):
+    """Numbers of the result on show; ``live`` is the :class:`~pumpsim_gui.worker.Update`."""
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.setObjectName("headline")
+        self.live = None
+        outer = QHBoxLayout(self)
+        outer.setContentsMargins(14, 8, 14, 8)
+        outer.setSpacing(24)
+        left = QVBoxLayout()
+        self.title = _label("Transfer fraction", "cardTitle")
+        self.fraction = _label("—", "bigNumber")
+        self.stage = _label("computing…", "stage")
+        self.stage.setProperty("stage", "waiting")
+        self.detail = _label("", "muted")
+        self.detail.setWordWrap(True)
+        pill = QHBoxLayout()
+        pill.addWidget(self.stage)
+        pill.addStretch(1)
+        for w in (self.title, self.fraction):
+            left.addWidget(w)
+        left.addLayout(pill)
+        left.addWidget(self.detail)
+        outer.addLayout(left, 2)
+        self.table = QGridLayout()
+        self.table.setHorizontalSpacing(18)
+        self.table.setVerticalSpacing(2)
+        for c, text in enumerate(COLUMNS):
+            self.table.addWidget(_label(text, "cardTitle", Qt.AlignRight if c else Qt.AlignLeft),
+                                 0, c)
+        self.cells = []
+        outer.addLayout(self.table, 5)
+
+    def display(self, live, pending=False):
+        """Show an update; ``pending``: a newer change is still being computed."""
+        self.live = live
+        r = live.result
+        self.title.setText(f"Transfer into {r.setup.target} (fraction of all atoms)")
+        self.fraction.setText(f"{r.transfer_fraction:.2%}")
+        self.fraction.setToolTip(f"{r.transfer_fraction:.6f}")
+        n = r.numerics
+        kind = "quick" if live.stage == "quick" else ("engine" if n.converged else "unconverged")
+        self.set_stage(STAGE_WORDS[kind], kind)
+        self.detail.setText(stage_text(live) + (" · updating for your latest change…" if pending else ""))
+        summary = r.beam_summary()
+        if len(self.cells) != len(r.setup.beams):
+            self._make_cells(len(r.setup.beams))
+        for row, b in zip(self.cells, r.setup.beams):
+            s = summary[b.name]
+            values = (b.name, f"{r.photons_per_atom[b.name]:.3f}",
+                      f"{r.deflection[b.name] * 1e3:.4f}", f"{s['peak_intensity_mW_cm2']:.4g}",
+                      f"{s['saturation_parameter']:.3g}")
+            for w, v in zip(row, values):
+                w.setText(v)
+
+    def _make_cells(self, n_beams):
+        for row in self.cells:
+            for w in row:
+                self.table.removeWidget(w)
+                w.deleteLater()
+        self.cells = [[_label("", None, Qt.AlignRight if c else Qt.AlignLeft)
+                       for c in range(len(COLUMNS))] for _ in range(n_beams)]
+        for i, row in enumerate(self.cells, start=1):
+            for c, w in enumerate(row):
+                self.table.addWidget(w, i, c)
+
+    def set_stage(self, text, kind):
+        self.stage.setText(text)
+        self.stage.setProperty("stage", kind)
+        self.stage.style().polish(self.stage)

@@ -1,0 +1,242 @@
+"""Background computation: the window never computes on its own thread.
+
+* :class:`Lane`: one worker thread with a mailbox of one. Submitting a job
+  replaces any job still waiting, and tells a running job it is superseded
+  (jobs ask ``superseded()`` between steps and give up), so rapid slider
+  moves coalesce: the newest request wins.
+* :class:`Freshness`: the generation counter that decides on the window's
+  thread whether an arriving update may replace what is shown. Stale
+  results never overwrite newer ones.
+* :class:`LiveCompute`: the live result of the setup being edited, streamed
+  in two stages on two lanes: the quick estimate at once, the engine's
+  converged result when it is ready.
+* :class:`StudyCompute`: one lane for the study views' sweeps.
+"""
+
+import os
+import threading
+import time
+import traceback
+from dataclasses import dataclass
+
+from PySide6.QtCore import QObject, QThread, Signal
+
+from .engine_process import EngineProcess
+from .evaluate import Superseded, quick_estimate
+
+STAGES = ("quick", "engine")  # in the order a request's results arrive and rank
+ENGINE_QUIET_S = 0.25  # the engine stage starts once a request has stood this long (a drag
+# sends moves far more often, so runs are rarely started only to be ended)
+STOP_WAIT_MS = 10_000  # closing waits this long for a lane's current step to end
+
+
+def _debug_trace():
+    if os.environ.get("PUMPSIM_DEBUG"):
+        traceback.print_exc()
+
+
+class Lane(QThread):
+    """A worker thread running the newest submitted job.
+
+    A job is ``job(superseded)``; ``superseded()`` turns True as soon as
+    another job is submitted, :meth:`cancel` is called, or the lane stops.
+    """
+
+    def __init__(self, name, parent=None):
+        super().__init__(parent)
+        self.setObjectName(name)
+        self._cond = threading.Condition()
+        self._job = None
+        self._token = 0
+        self._stopping = False
+
+    def submit(self, job):
+        with self._cond:
+            self._token += 1
+            self._job = (self._token, job)
+            self._cond.notify()
+
+    def cancel(self):
+        """Drop the waiting job and tell the running one to give up."""
+        with self._cond:
+            self._token += 1
+            self._job = None
+
+    def stop(self):
+        """Finish: cancel work and wait for the thread to end."""
+        with self._cond:
+            self._stopping = True
+            self._token += 1
+            self._cond.notify()
+        self.wait(STOP_WAIT_MS)
+
+    def run(self):
+        while True:
+            with self._cond:
+                while self._job is None and not self._stopping:
+                    self._cond.wait()
+                if self._stopping:
+                    return
+                (token, job), self._job = self._job, None
+            try:
+                job(lambda: self._token != token)
+            except Superseded:
+                pass
+
+
+def wait_quiet(seconds, superseded):
+    """Sleep ``seconds`` unless superseded first; True if the wait ran out undisturbed."""
+    end = time.perf_counter() + seconds
+    while time.perf_counter() < end:
+        if superseded():
+            return False
+        time.sleep(0.01)
+    return not superseded()
+
+
+@dataclass(frozen=True)
+class Update:
+    """One result on its way to the window.
+
+    Parameters
+    ----------
+    generation : int
+        Request number (increases with every change of the setup).
+    stage : str
+        ``"quick"`` or ``"engine"``.
+    result : Result
+    requested : float
+        ``time.perf_counter()`` when the change was requested.
+    """
+
+    generation: int
+    stage: str
+    result: object
+    requested: float
+
+    @property
+    def rank(self):
+        return (self.generation, STAGES.index(self.stage))
+
+
+class Freshness:
+    """Accept an update only if it is newer than what is shown: a later
+    request, or a later stage of the same request."""
+
+    def __init__(self):
+        self.shown = (-1, -1)
+
+    def accept(self, update) -> bool:
+        if update.rank <= self.shown:
+            return False
+        self.shown = update.rank
+        return True
+
+
+class LiveCompute(QObject):
+    """Streams the quick estimate and then the engine result of every request.
+
+    Signals
+    -------
+    updated(Update)
+    failed(int, str)
+        Generation and a plain-words message.
+
+    Parameters
+    ----------
+    quick : callable
+        ``quick(setup) -> Result`` for the first stage.
+    full : callable, optional
+        ``full(setup, superseded) -> Result`` for the second; may raise
+        :class:`~pumpsim_gui.evaluate.Superseded`. Default: the engine in a
+        child process (:class:`~pumpsim_gui.engine_process.EngineProcess`).
+    """
+
+    updated = Signal(object)
+    failed = Signal(int, str)
+
+    def __init__(self, quick=quick_estimate, full=None, parent=None):
+        super().__init__(parent)
+        self.engine = None
+        if full is None:
+            self.engine = EngineProcess()
+            full = self.engine.simulate
+        self.quick, self.full = quick, full
+        self.generation = 0
+        self.quick_lane, self.engine_lane = Lane("quick"), Lane("engine")
+        self.quick_lane.start()
+        self.engine_lane.start()
+
+    def request(self, setup):
+        """Compute ``setup``; returns its generation number."""
+        self.generation += 1
+        gen, t = self.generation, time.perf_counter()
+        self.quick_lane.submit(
+            lambda superseded: self._emit(gen, "quick", lambda: self.quick(setup), t))
+        self.engine_lane.submit(lambda superseded: self._engine(gen, setup, t, superseded))
+        return gen
+
+    def _engine(self, gen, setup, t, superseded):
+        if wait_quiet(ENGINE_QUIET_S, superseded):
+            self._emit(gen, "engine", lambda: self.full(setup, superseded), t)
+
+    def _emit(self, gen, stage, compute, t):
+        try:
+            result = compute()
+        except Superseded:
+            return
+        except Exception as exc:  # shown in the window; no traceback unless debugging
+            _debug_trace()
+            self.failed.emit(gen, f"{stage} computation failed: {type(exc).__name__}: {exc}")
+            return
+        # Emitted even if a newer request came meanwhile: while a slider is
+        # dragged every quick result is soon outdated, yet showing it beats
+        # showing nothing; Freshness keeps it from replacing anything newer.
+        self.updated.emit(Update(gen, stage, result, t))
+
+    def stop(self):
+        if self.engine is not None:
+            self.engine.close()
+        self.quick_lane.stop()
+        self.engine_lane.stop()
+
+
+class StudyCompute(QObject):
+    """Runs one study job at a time; a new one (or :meth:`cancel`) stops the last.
+
+    A job is ``job(emit, superseded, engine)``, ``engine`` being this lane's
+    :class:`~pumpsim_gui.engine_process.EngineProcess`; whatever the job passes
+    to ``emit`` arrives on the window's thread through :attr:`progressed`
+    unless it was superseded.
+    """
+
+    progressed = Signal(object)
+    failed = Signal(str)
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.engine = EngineProcess(start=False)  # most sessions may never open a study
+        self.lane = Lane("studies")
+        self.lane.start()
+
+    def submit(self, job):
+        def run(superseded):
+            def emit(payload):
+                if not superseded():
+                    self.progressed.emit(payload)
+            try:
+                job(emit, superseded, self.engine)
+            except Superseded:
+                pass
+            except Exception as exc:
+                _debug_trace()
+                self.failed.emit(f"study failed: {type(exc).__name__}: {exc}")
+
+        self.lane.submit(run)
+
+    def cancel(self):
+        self.lane.cancel()
+
+    def stop(self):
+        self.engine.close()
+        self.lane.stop()
