@@ -148,7 +148,14 @@ def base_font(delta=0, bold=False):
 
 
 def apply(app, theme):
-    """Apply ``theme`` to the whole application (palette, style sheet, plot defaults)."""
+    """Apply ``theme`` to the whole application (palette, style sheet, plot defaults).
+
+    Restyling costs a second or two once widgets exist, so this is skipped
+    when the application already wears ``theme``.
+    """
+    if app.property("pumpsim_theme") == theme.name:
+        return
+    app.setProperty("pumpsim_theme", theme.name)
     app.setFont(base_font())
     pal = QPalette()
     for role, colour in ((QPalette.Window, theme.window), (QPalette.Base, theme.sunken),
