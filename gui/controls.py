@@ -43,7 +43,7 @@ class SetupPanel(QScrollArea):
         super().__init__(parent)
         self.setWidgetResizable(True)
         self.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
-        self.setMinimumWidth(400)
+        self.setMinimumWidth(440)
         self.rows, self.caution_labels, self.structure = {}, {}, None
         self.body = None
 

@@ -128,7 +128,7 @@ class MainWindow(QMainWindow):
         split.addWidget(self.panel)
         split.addWidget(right)
         split.setStretchFactor(1, 1)
-        split.setSizes([380, 1000])
+        split.setSizes([440, 1000])
         root = QWidget()
         root.setObjectName("root")
         outer = QVBoxLayout(root)
