@@ -8,9 +8,11 @@ Start it with ``pumpsim gui [SETUP]`` or :func:`run`. Modules:
 ``field_row``   one control for one schema field (slider, entry, unit)
 ``edits``       changing a setup through ``--set`` keys (no Qt)
 ``worker``      worker threads, request generations, streamed results
-``evaluate``    the quick estimate and the engine run (no Qt)
+``evaluate``    the quick estimate (no Qt)
+``engine_process``  ``pumpsim.simulate`` in a child process that can be ended (no Qt)
 ``studies``     power, power x waist and route sweeps (no Qt)
-``*_view``      one module per tab; ``readouts``, ``banners`` around them
+``plot_view``, ``study_view``  what the tabs share; ``*_view`` one module per tab
+``readouts``, ``banners``  the numbers above the tabs, the message and caution bars
 ``theme``       the light and dark themes
 ``files``       open, save and export
 ``app``         start-up and the screenshot mode

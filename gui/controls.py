@@ -43,7 +43,7 @@ class SetupPanel(QScrollArea):
         super().__init__(parent)
         self.setWidgetResizable(True)
         self.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
-        self.setMinimumWidth(400)
+        self.setMinimumWidth(440)
         self.rows, self.caution_labels, self.structure = {}, {}, None
         self.body = None
 
@@ -59,9 +59,11 @@ class SetupPanel(QScrollArea):
             self._build(setup)
         else:
             for key, (row, field, beam) in self.rows.items():
+                stale = not row.error.isHidden()  # it may still show the refused text
                 row.clear_error()
-                if key != except_key:
-                    row.set_value(*self._state(setup, field, beam))
+                state = self._state(setup, field, beam)
+                if key != except_key and (stale or state != (row.value, row.is_set)):
+                    row.set_value(*state)
         for name, label in self.caution_labels.items():
             text = beam_cautions(setup, name)
             label.setText("⚠ " + "\n⚠ ".join(text) if text else "")

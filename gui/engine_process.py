@@ -58,9 +58,11 @@ class _Child:
 class EngineProcess:
     """A child process serving :func:`pumpsim.simulate`, for one caller thread at a time.
 
-    A second child waits ready: ending a superseded run then costs nothing,
-    since the next request goes straight to the spare while a new spare
-    imports the engine in the background (about a second).
+    Once a run has been ended, a second child waits ready: ending the next
+    superseded run then costs nothing, since the following request goes
+    straight to the spare while a new spare imports the engine in the
+    background (about a second). Windows whose runs are never ended never
+    start the spare.
 
     Parameters
     ----------
@@ -73,6 +75,7 @@ class EngineProcess:
         self._lock = threading.Lock()
         self.closed = False
         self.child = self.spare = None
+        self.replaced = 0
         if start:
             self._ready()
 
@@ -82,7 +85,7 @@ class EngineProcess:
                 return
             if self.child is None:
                 self.child, self.spare = self.spare or _Child(self._ctx), None
-            if self.spare is None:
+            if self.spare is None and self.replaced:
                 self.spare = _Child(self._ctx)
 
     def _replace(self):
@@ -90,6 +93,7 @@ class EngineProcess:
         with self._lock:
             self.child.end()
             self.child = None
+            self.replaced += 1
         self._ready()
 
     def simulate(self, setup, superseded=lambda: False, tolerance=None):

@@ -159,6 +159,8 @@ class FieldRow(QWidget):
             self.entry.style().polish(self.entry)
 
     def clear_error(self):
+        if self.error.isHidden():
+            return
         self.error.hide()
         if self.entry is not None and self.entry.property("invalid"):
             self.entry.setProperty("invalid", False)

@@ -14,7 +14,7 @@ from pumpsim import constants as K
 from pumpsim.lines import line
 
 from .plot_view import PlotView
-from .theme import base_font, set_title, wavelength_colour
+from .theme import base_font, readable, set_title, wavelength_colour
 
 LABEL_GAP = 0.045  # least vertical distance between level labels, fraction of the energy range
 LEAK_DROP = 0.07  # length of an arrow to "other", fraction of the energy range
@@ -116,7 +116,8 @@ class LevelsView(PlotView):
                 nm = line(scheme, lo, up).wavelength * 1e9
                 colour = wavelength_colour(nm)
                 self._arrow(xs, E[lo], E[up], colour, 5.0, "t1")
-                self._text(xs, 0.5 * (E[lo] + E[up]), f"{value.name}  {nm:.1f} nm", colour, bold=True)
+                self._text(xs, 0.5 * (E[lo] + E[up]), f"{value.name}  {nm:.1f} nm",
+                           readable(colour, t), bold=True)
             elif kind == "decay":
                 colour = t.level_colour(index[up], n)
                 self._arrow(xs, E[up], E[lo], colour, 1.0 + 3.0 * value, "t")

@@ -148,7 +148,14 @@ def base_font(delta=0, bold=False):
 
 
 def apply(app, theme):
-    """Apply ``theme`` to the whole application (palette, style sheet, plot defaults)."""
+    """Apply ``theme`` to the whole application (palette, style sheet, plot defaults).
+
+    Restyling costs a second or two once widgets exist, so this is skipped
+    when the application already wears ``theme``.
+    """
+    if app.property("pumpsim_theme") == theme.name:
+        return
+    app.setProperty("pumpsim_theme", theme.name)
     app.setFont(base_font())
     pal = QPalette()
     for role, colour in ((QPalette.Window, theme.window), (QPalette.Base, theme.sunken),
@@ -200,3 +207,13 @@ def wavelength_colour(wavelength_nm):
             rgb = [x + t * (y - x) for x, y in zip(ca, cb)]
             break
     return "#" + "".join(f"{round(255 * c):02x}" for c in rgb)
+
+
+def readable(colour, theme, share=0.45):
+    """``colour`` moved ``share`` of the way to the theme's text colour, for text
+    in a spectral colour (deep blue or violet is too dark to read on slate)."""
+    if theme.name == "light":
+        return colour
+    a = [int(colour[i:i + 2], 16) for i in (1, 3, 5)]
+    b = [int(theme.text[i:i + 2], 16) for i in (1, 3, 5)]
+    return "#" + "".join(f"{round(x + share * (y - x)):02x}" for x, y in zip(a, b))

@@ -61,6 +61,7 @@ class MainWindow(QMainWindow):
     def __init__(self, setup, theme="light", live=None, parent=None):
         super().__init__(parent)
         self.theme = th.THEMES[theme]
+        th.apply(QApplication.instance(), self.theme)  # before the widgets: cheaper
         self.setup, self.saved_document = setup, copy.deepcopy(setup.document)
         self.live = live or LiveCompute()
         self.live.setParent(self)
@@ -127,7 +128,7 @@ class MainWindow(QMainWindow):
         split.addWidget(self.panel)
         split.addWidget(right)
         split.setStretchFactor(1, 1)
-        split.setSizes([380, 1000])
+        split.setSizes([440, 1000])
         root = QWidget()
         root.setObjectName("root")
         outer = QVBoxLayout(root)
@@ -185,6 +186,7 @@ class MainWindow(QMainWindow):
     def set_setup(self, setup, except_key=None):
         """Show and compute ``setup`` (already validated)."""
         self.setup = setup
+        self.live.request(setup)  # first: the quick estimate starts while the panel catches up
         self.panel.load(setup, except_key)
         self.caution.display(setup)
         names = [b.name for b in setup.beams]
@@ -195,7 +197,6 @@ class MainWindow(QMainWindow):
             if current in names:
                 self.study_beam.setCurrentText(current)
         self._set_title()
-        self.live.request(setup)
         self.export_result_action.setEnabled(False)
         self.study_timer.start()
 

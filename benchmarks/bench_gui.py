@@ -1,0 +1,118 @@
+"""How fast the window answers a slider move on the demo setup.
+
+Run:  QT_QPA_PLATFORM=offscreen python benchmarks/bench_gui.py [--moves N] [--setup FILE]
+
+Opens the window offscreen on the demo, waits for its first converged
+result, then moves the pump-power slider (as a user's drag would: the
+slider's own valueChanged path) and times, from the move:
+
+* first update: the quick estimate on screen (target 50 ms);
+* converged: the engine's result on screen (target 1 s);
+
+for single moves and for the end of a 20-step drag at 60 Hz. Baselines
+measured in the same run: the quick estimate and ``pumpsim.simulate`` called
+directly, without the window. Figures are medians over the moves; the
+machine's load is printed too, since other work shares its cores.
+"""
+
+import argparse
+import os
+import statistics
+import time
+
+os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+
+FIRST_TARGET_S, CONVERGED_TARGET_S = 0.050, 1.0
+DRAG_STEPS, DRAG_INTERVAL_S = 20, 1 / 60
+
+
+def wait(app, condition, timeout=600.0):
+    end = time.perf_counter() + timeout
+    while not condition():
+        if time.perf_counter() > end:
+            raise TimeoutError("no result in time")
+        app.processEvents()
+        time.sleep(0.0005)
+
+
+def main():
+    import pumpsim
+    from pumpsim.demo import demo_setup_path
+    from pumpsim_gui.app import application
+    from pumpsim_gui.evaluate import quick_estimate
+    from pumpsim_gui.window import MainWindow
+
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("--moves", type=int, default=3, help="single moves to time (default 3)")
+    ap.add_argument("--setup", help="setup file (default: the demo)")
+    args = ap.parse_args()
+
+    setup = pumpsim.load_setup(args.setup or demo_setup_path())
+    t = time.perf_counter()
+    quick_estimate(setup)
+    t_quick = time.perf_counter() - t
+    t = time.perf_counter()
+    pumpsim.simulate(setup)
+    t_engine = time.perf_counter() - t
+
+    app = application()
+    w = MainWindow(setup)
+    w.confirm_discard = lambda: "discard"
+    w.resize(1480, 940)
+    w.show()
+    seen = []
+    w.displayed.connect(lambda u: seen.append((time.perf_counter(), u.generation, u.stage)))
+
+    def arrival(gen, stage):
+        return next((s for s, g, st in seen if g == gen and st == stage), None)
+
+    def current_engine():
+        return w.shown is not None and w.shown.stage == "engine" and \
+            w.shown.generation == w.live.generation
+
+    wait(app, current_engine)
+    row = w.panel.row(f"beam.{setup.beams[0].name}.power_mW")
+    first, converged = [], []
+    for k in range(args.moves):
+        t0 = time.perf_counter()
+        row.move_slider(row.slider.value() + (40 if k % 2 == 0 else -40))
+        gen = w.live.generation
+        wait(app, lambda: arrival(gen, "quick") is not None or arrival(gen, "engine") is not None)
+        wait(app, lambda: arrival(gen, "engine") is not None)
+        first.append(min(x for x in (arrival(gen, "quick"), arrival(gen, "engine")) if x) - t0)
+        converged.append(arrival(gen, "engine") - t0)
+
+    for step in range(DRAG_STEPS):
+        t0 = time.perf_counter()
+        row.move_slider(row.slider.value() + 2)
+        while time.perf_counter() - t0 < DRAG_INTERVAL_S:
+            app.processEvents()
+    gen = w.live.generation
+    wait(app, lambda: arrival(gen, "engine") is not None)
+    drag_first = arrival(gen, "quick")
+    drag_first = None if drag_first is None else drag_first - t0
+    drag_converged = arrival(gen, "engine") - t0
+    shown_during_drag = len({g for _, g, st in seen if st == "quick" and g > gen - DRAG_STEPS})
+    w.close()
+
+    load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
+    med_first, med_conv = statistics.median(first), statistics.median(converged)
+    print(f"setup: {setup.path}   machine load (1 min): {load:.1f} on {os.cpu_count()} cores")
+    print("baselines, same run, no window:")
+    print(f"  quick estimate direct       {t_quick * 1e3:9.1f} ms")
+    print(f"  pumpsim.simulate direct     {t_engine:9.2f} s")
+    print(f"single slider moves ({args.moves}), median:")
+    print(f"  first update on screen      {med_first * 1e3:9.1f} ms   target {FIRST_TARGET_S * 1e3:.0f} ms"
+          f"   ratio to direct quick estimate {med_first / t_quick:.2f}")
+    print(f"  converged on screen         {med_conv:9.2f} s    target {CONVERGED_TARGET_S:.0f} s"
+          f"    ratio to direct simulate {med_conv / t_engine:.2f}")
+    print(f"  each: first {', '.join(f'{x * 1e3:.0f}' for x in first)} ms; "
+          f"converged {', '.join(f'{x:.2f}' for x in converged)} s")
+    print(f"drag of {DRAG_STEPS} moves at 60 Hz: {shown_during_drag} quick updates shown during it;")
+    print(f"  after the last move: first update "
+          f"{'(already beaten by the engine)' if drag_first is None else f'{drag_first * 1e3:.1f} ms'}, "
+          f"converged {drag_converged:.2f} s")
+
+
+if __name__ == "__main__":
+    main()
