@@ -135,10 +135,10 @@ def _source(raw, file, scheme):
     v = _read_fields(raw, fields, file, "source")
     for key in NEEDS[v["kind"]]:
         if key not in raw:
-            raise InputError(f"a {v['kind']} source needs this key", file, "source", key)
+            raise InputError(f"the {v['kind']} source needs this key", file, "source", key)
     for key in UNUSED[v["kind"]]:
         if key in raw:
-            raise InputError(f"not used by a {v['kind']} source; remove it", file, "source", key)
+            raise InputError(f"not used by the {v['kind']} source; remove it", file, "source", key)
     initial = raw.get("initial", "thermal")
     if isinstance(initial, str):
         if initial != "thermal":
@@ -166,9 +166,9 @@ def _source(raw, file, scheme):
 
 def _beam(raw, i, file, scheme):
     fields = fields_of("beam")
-    table = f"beam #{i + 1}"
-    if isinstance(raw, dict) and isinstance(raw.get("name"), str) and raw["name"].strip():
-        table = f"beam '{raw['name']}'"
+    given = raw.get("name") if isinstance(raw, dict) else None
+    # name the beam as the user does wherever it has a usable name, else by position
+    table = f"beam '{given}'" if isinstance(given, str) and given.strip() else f"beam #{i + 1}"
     check_keys(raw, {f.key for f in fields} | {"name", "transition"}, file, table,
                required=("name", "transition"))
     name = text(raw, "name", file, table)

@@ -693,3 +693,145 @@ def test_subprocess_valid_run(tmp_path):
     assert proc.returncode == 0, proc.stderr
     assert "Traceback" not in proc.stderr
     assert_physical(proc.stdout)
+
+
+# -- the table in docs/bad_input.md: each kind of bad input and what the user sees ----
+def _edit(which, change):
+    """Files for a documented case: ``change(doc)`` edits the scheme or setup document."""
+    def make():
+        docs = {"scheme": copy.deepcopy(SCHEME), "setup": copy.deepcopy(SETUP)}
+        change(docs[which])
+        return {f"{k}.toml": _emit(v) for k, v in docs.items()}
+    return make
+
+
+def _raw(which, content):
+    def make():
+        files = {"scheme.toml": _emit(SCHEME), "setup.toml": _emit(SETUP)}
+        files[f"{which}.toml"] = content
+        return files
+    return make
+
+
+def _beam(**kw):
+    return lambda d: d["beam"][0].update(kw)
+
+
+def _source(**kw):
+    return lambda d: d["source"].update(kw)
+
+
+def _drop(*path):
+    def change(d):
+        node = d
+        for p in path[:-1]:
+            node = node[p]
+        del node[path[-1]]
+    return change
+
+
+def _setup_text(replace, by):
+    return _raw("setup", _emit(SETUP).replace(replace, by, 1))
+
+
+DOCUMENTED = [  # (kind of bad input, files, extra arguments, exact stderr line)
+    ("empty file", _raw("setup", b""), [],
+     "setup.toml key 'scheme': missing required key"),
+    ("binary junk", _raw("setup", b"\x89PNG\r\n\x1a\n\x00\x00"), [],
+     "setup.toml: file is not UTF-8 text (invalid byte at offset 0)"),
+    ("saved as UTF-16", _raw("setup", _emit(SETUP).encode("utf-16")), [],
+     "setup.toml: file is UTF-16 text; save it as UTF-8"),
+    ("not TOML (JSON)", _raw("setup", b'{"scheme": "scheme.toml"}'), [],
+     "setup.toml: not valid TOML: Invalid statement (at line 1, column 1)"),
+    ("TOML syntax error", _setup_text("power_mW = 1.0", "power_mW = 1,0"), [],
+     "setup.toml: not valid TOML: Expected newline or end of document after a statement "
+     "(at line 14, column 13)"),
+    ("key given twice", _setup_text("power_mW = 1.0", "power_mW = 1.0\npower_mW = 2.0"), [],
+     "setup.toml: not valid TOML: Cannot overwrite a value (at line 15, column 15)"),
+    ("[beam] written for [[beam]]", _setup_text("[[beam]]", "[beam]"), [],
+     "setup.toml [beam]: must be an array of tables written [[beam]]"),
+    ("unknown key, wrong unit", _edit("setup", lambda d: d["beam"][0].update(
+        power_W=d["beam"][0].pop("power_mW"))), [],
+     "setup.toml [beam 'pump'] key 'power_W': unknown key (allowed: angle_deg, detuning_MHz, "
+     "linewidth_MHz, name, passes, position_mm, power_mW, transition, waist_across_mm, "
+     "waist_mm)"),
+    ("missing required key", _edit("setup", _drop("beam", 0, "waist_mm")), [],
+     "setup.toml [beam 'pump'] key 'waist_mm': missing required key"),
+    ("missing table", _edit("setup", _drop("source")), [],
+     "setup.toml key 'source': missing required key"),
+    ("wrong type", _edit("setup", _beam(power_mW="1.0")), [],
+     "setup.toml [beam 'pump'] key 'power_mW': must be a number, got str '1.0'"),
+    ("not a number at all", _edit("setup", _beam(power_mW=math.nan)), [],
+     "setup.toml [beam 'pump'] key 'power_mW': must be finite, got nan"),
+    ("negative", _edit("setup", _beam(power_mW=-1.0)), [],
+     "setup.toml [beam 'pump'] key 'power_mW': must be >= 0 mW, got -1.0"),
+    ("huge", _edit("setup", _beam(power_mW=1e300)), [],
+     "setup.toml [beam 'pump'] key 'power_mW': must be <= 1e+08 mW, got 1e+300"),
+    ("tiny", _edit("setup", _beam(waist_mm=1e-300)), [],
+     "setup.toml [beam 'pump'] key 'waist_mm': must be >= 0.0001 mm, got 1e-300"),
+    ("zero speed", _edit("setup", _source(speed_m_s=0.0)), [],
+     "setup.toml [source] key 'speed_m_s': must be >= 0.01 m/s, got 0.0"),
+    ("text not in the list", _edit("setup", _source(kind="effusiv")), [],
+     "setup.toml [source] key 'kind': must be one of effusive, gaussian, monoenergetic; "
+     "got 'effusiv'"),
+    ("key the kind needs", _edit("setup", lambda d: (d["source"].update(kind="effusive"),
+                                                     d["source"].pop("speed_m_s"))), [],
+     "setup.toml [source] key 'temperature_K': the effusive source needs this key"),
+    ("initial fractions", _edit("setup", _source(initial={"g": 0.5, "m": 0.4})), [],
+     "setup.toml [source.initial]: fractions sum to 0.9, not 1"),
+    ("unknown level", _edit("setup", _beam(transition=["g", "é"])), [],
+     "setup.toml [beam 'pump'] key 'transition' level 'é': unknown level"),
+    ("unknown target", _edit("setup", lambda d: d.update(target="M")), [],
+     "setup.toml key 'target' level 'M': unknown level"),
+    ("duplicate beam name", _edit("setup", lambda d: d["beam"].append(dict(d["beam"][0]))), [],
+     "setup.toml [beam] key 'name': beam name 'pump' used twice"),
+    ("control character in a key", _edit("setup", lambda d: d["source"].update(
+        {"speed\tm_s": 1.0})), [],
+     "setup.toml [source] key 'speed\\tm_s': unknown key (allowed: divergence_rms_mrad, "
+     "initial, kind, speed_m_s, speed_spread_m_s, temperature_K, width_rms_mm)"),
+    ("scheme file missing", _edit("setup", lambda d: d.update(scheme="schemes.toml")), [],
+     "setup.toml key 'scheme': scheme file not found: schemes.toml"),
+    ("a setup where a scheme belongs", _edit("setup", lambda d: d.update(scheme="setup.toml")),
+     [], "setup.toml key 'species': missing required key: this looks like a setup file, "
+         "not a scheme"),
+    ("duplicate level id", _edit("scheme", lambda d: d["level"].append(dict(d["level"][0]))),
+     [], "scheme.toml [level] key 'id' level 'g': duplicate level id"),
+    ("decay to an unknown level", _edit("scheme", lambda d: d["decay"][0].update(lower="G")),
+     [], "scheme.toml [decay] key 'lower' level 'G': unknown level"),
+    ("branchings over 1", _edit("scheme", lambda d: d["decay"][0].update(branching=0.7)), [],
+     "scheme.toml [decay] key 'branching' level 'e': branchings sum to 1.1, more than 1"),
+    ("lifetime longer than 1/sum(A)", _edit("scheme", lambda d: (
+        [x.update(A_per_s=1e7) or x.pop("branching") for x in d["decay"]],
+        d["level"][2].update(lifetime_s=1e-6))), [],
+     "scheme.toml [level] key 'lifetime_s' level 'e': lifetime 1e-06 s is longer than "
+     "1/sum(A) = 5e-08 s"),
+    ("wavelength against energies", _edit("scheme", lambda d: d["decay"][1].update(
+        wavelength_nm=527.0)), [],
+     "scheme.toml [decay] key 'wavelength_nm' level 'e': 527 nm disagrees with the energies "
+     "(526.316 nm) by more than 1 part in 1e4"),
+    ("levels too close for a line", _edit("scheme", lambda d: (
+        d["level"][1].update(energy_cm=19999.99999), d["decay"][1].pop("wavelength_nm"))), [],
+     "scheme.toml [decay] key 'upper' level 'e': levels of a decay must be at least 0.0001 "
+     "cm^-1 apart (lower level 'm')"),
+    ("--set: not a number", _edit("setup", lambda d: None), ["--set", "beam.pump.power_mW=abc"],
+     "setup.toml [beam 'pump'] key 'power_mW': must be a number, got str 'abc'"),
+    ("--set: no such beam", _edit("setup", lambda d: None), ["--set", "beam.probe.power_mW=5"],
+     "setup.toml [beam] key 'beam.probe.power_mW': no beam named 'probe' (beams: pump)"),
+    ("--set: no '='", _edit("setup", lambda d: None), ["--set", "beam.pump.power_mW"],
+     "setup.toml [--set]: --set needs KEY=VALUE, got 'beam.pump.power_mW'"),
+]
+
+
+@pytest.mark.parametrize("kind, make, extra, message", DOCUMENTED,
+                         ids=[c[0] for c in DOCUMENTED])
+def test_documented_messages(tmp_path, monkeypatch, kind, make, extra, message):
+    """Each row of docs/bad_input.md: exit 2 and exactly the documented line."""
+    for name, content in make().items():
+        write(tmp_path / name, content)
+    monkeypatch.chdir(tmp_path)
+    rc, out, err = cli("check", "setup.toml", *extra) if not extra else cli(
+        "run", "setup.toml", *extra)
+    assert (rc, out) == (2, "")
+    assert err == f"pumpsim: error: {message}\n"
+    doc = (Path(__file__).parent.parent / "docs" / "bad_input.md").read_text(encoding="utf-8")
+    assert f"`{message}`".replace("|", "\\|") in doc, "docs/bad_input.md shows this message"
