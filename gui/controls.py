@@ -111,6 +111,9 @@ class SetupPanel(QScrollArea):
         for f in fields_of("numerics"):
             self._add(group, setup, f, None)
         column.addStretch(1)
+        old = self.takeWidget()
+        if old is not None:
+            old.deleteLater()  # a control of it may be emitting the change that got us here
         self.setWidget(self.body)
 
     @staticmethod

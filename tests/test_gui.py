@@ -416,3 +416,16 @@ def test_gui_command_says_what_is_missing(monkeypatch, capsys):
                         lambda name, *a: None if name == "PySide6" else real(name, *a))
     assert pumpsim.cli.main(["gui"]) == 1
     assert "pumpsim[gui]" in capsys.readouterr().err
+
+
+def test_switching_the_source_kind_from_its_control(open_window, qtbot, cheap_path):
+    """A monoenergetic source becomes effusive: the effusive kind needs a temperature
+    (present) and refuses a speed, so the speed key goes and its control with it."""
+    w = open_window(pumpsim.load_setup(cheap_path))
+    kind = w.panel.row("source.kind")
+    kind.choice.setCurrentIndex(kind.choice.findData("effusive"))
+    kind.choice.activated.emit(kind.choice.currentIndex())
+    assert w.setup.source.kind == "effusive" and "speed_m_s" not in w.setup.document["source"]
+    assert "source.speed_m_s" not in w.panel.rows and "source.temperature_K" in w.panel.rows
+    qtbot.waitUntil(lambda: w.shown is not None and w.shown.result.setup.source.kind == "effusive",
+                    timeout=WAIT_MS)
