@@ -253,7 +253,7 @@ def with_value(setup: Setup, key: str, value) -> Setup:
     else:
         node[leaf] = value
     scheme = None if key == "scheme" else setup.scheme
-    return setup_from_document(doc, file, scheme=scheme)
+    return setup_from_document(doc, file, scheme=scheme, text_=setup.text)
 
 
 def setup_to_toml(setup: Setup) -> str:
