@@ -114,6 +114,9 @@ def plot_size(sizing, path):
              f"Branching limit at unlimited power and time: {sizing.limit.fraction:.4f}."]
     if not s.reachable:
         notes.insert(0, f"F = {F:g} is NOT REACHABLE: {sizing.reason}")
+    if sizing.unconverged:
+        notes.append(f"WARNING: {sizing.unconverged} of {sizing.simulations} simulations missed "
+                     "the numerical tolerance.")
     _footer(fig, notes, sizing.cautions)
     _save(fig, path)
 

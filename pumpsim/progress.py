@@ -92,6 +92,8 @@ class Progress:
     def __enter__(self):
         return self
 
-    def __exit__(self, *exc):
+    def __exit__(self, exc_type, *exc):
+        if exc_type is None and self.total:  # estimates done: the work is complete
+            self.total = self.done
         self.close()
         return False

@@ -24,7 +24,7 @@ from .errors import InputError
 from .limits import branching_limit
 from .lines import line
 from .safety import GENERAL
-from .sizing import least_power_search, shown_cautions
+from .sizing import TYPICAL_SEARCH, least_power_search, shown_cautions
 
 
 @dataclass(frozen=True)
@@ -136,6 +136,8 @@ def compare(setup, beam, F, executor=None, routes=None, progress=None) -> list:
             raise InputError(f"no line from '{lower}' to '{up}' in the scheme (lines: "
                              f"{', '.join(every) or 'none'})", setup.path, "--routes", level=up)
     variants = [route_setup(setup, beam, up) for up in chosen]
+    if progress is not None:
+        progress.remaining_at_least(TYPICAL_SEARCH * len(variants))
     searches = Batcher(executor, progress).drive(
         [least_power_search(v, beam, F) for v in variants])
     scheme, target = setup.scheme, setup.target

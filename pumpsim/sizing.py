@@ -45,6 +45,7 @@ WAIST_RTOL = 0.02  # compass search stops at 2 % steps
 WAIST_SPAN = 5.0  # default bounds: current waist / 5 .. * 5
 MAP_POWER_SPAN = 10.0  # default map: least power / 10 .. * 10
 MAX_ROUNDS = 60
+TYPICAL_SEARCH = 10  # simulations a least-power search usually needs (for progress only)
 
 
 def with_power(setup, beam, power):
@@ -434,7 +435,7 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
         Points per axis of the power x waist map; 0 for none.
     power_range : tuple, optional
         ``(low, high)`` powers (W) of the map; default the least power divided
-        and multiplied by :data:`MAP_POWER_SPAN`.
+        and multiplied by :data:`MAP_POWER_SPAN`, widened to the setup's power.
     progress : Progress, optional
 
     Returns
@@ -459,6 +460,10 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
     along = _bounds(b.waist, along, "--waist-range")
     across = _bounds(b.waist_across, across, "--waist-across-range")
 
+    if progress is not None:  # a typical count, so that the time left means something
+        axes = sum(hi > lo for lo, hi in (along, across))
+        progress.remaining_at_least(TYPICAL_SEARCH + WAIST_GRID**axes + 4 * axes * 6
+                                    + map_points**2)
     batcher = Batcher(executor, progress)
     limit = branching_limit(setup)
     (search,) = batcher.drive([least_power_search(setup, beam, F)])
@@ -469,6 +474,8 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
     if map_points:
         centre = proposed if proposed > 0 else search.ceiling_power * 1e-3
         plo, phi = power_range or (centre / MAP_POWER_SPAN, centre * MAP_POWER_SPAN)
+        if power_range is None and b.power > 0:  # show the setup's own operating point
+            plo, phi = min(plo, b.power), max(phi, b.power)
         grid = {"power": np.geomspace(plo, phi, map_points),
                 "waist": np.geomspace(along[0], along[1], map_points)}
         gens.append(map_search(setup, beam, grid["power"], grid["waist"]))

@@ -159,5 +159,5 @@ def test_progress_bar_shows_time_left(monkeypatch):
         bar.advance()
     lines = log.getvalue().splitlines()
     assert lines[0].startswith("scan: [") and "1/4" in lines[0] and "left" in lines[0]
-    assert "2/4" in lines[-1]
+    assert "2/4" in lines[-2] and "2/2" in lines[-1]  # finished: estimate replaced by count
     assert progress.clock(75) == "1m15s" and progress.clock(4000) == "1h06m"

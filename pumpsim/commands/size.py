@@ -29,7 +29,8 @@ def add_parser(sub):
     p.add_argument("--map", type=int, default=10, metavar="N",
                    help="points per axis of the power x waist map (default 10; 0: no map)")
     p.add_argument("--power-range", metavar="MIN:MAX",
-                   help="powers of the map, mW (default: least power / 10 to * 10)")
+                   help="powers of the map, mW (default: least power / 10 to * 10, widened to "
+                        "include the setup's power)")
     add_plot_argument(p)
     add_executor_arguments(p)
     p.set_defaults(handler=handle)
