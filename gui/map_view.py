@@ -4,7 +4,7 @@ log10 coordinates and the axes label them as powers of ten."""
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtCore import QRectF, Qt
+from PySide6.QtCore import QRectF
 
 from . import studies
 from .study_view import Plan, StudyView
@@ -23,6 +23,7 @@ class MapView(StudyView):
         self.bar = pg.ColorBarItem(values=(0, 1), interactive=False, label="transfer fraction")
         self.bar.setImageItem(self.image, insert_in=item)
         self.overlays = []
+        self.legend.hide()  # the caption and colour bar say what is drawn
 
     def make_plan(self, setup, beam):
         self.powers = studies.power_axis(setup, beam, studies.MAP_POWERS)

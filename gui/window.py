@@ -76,7 +76,6 @@ class MainWindow(QMainWindow):
         self.caution = CautionBar()
         self.profile, self.power, self.map = ProfileView(), PowerView(), MapView()
         self.routes, self.levels = RoutesView(), LevelsView()
-        self.map.legend.hide()
         self.tabs = QTabWidget()
         for view, name in ((self.profile, "Along the beam"), (self.power, "Transfer vs power"),
                            (self.map, "Power × waist"), (self.routes, "Routes"),
