@@ -73,7 +73,8 @@ class SparseRateModel(RateModel):
         for t, info in enumerate(self._terms):
             drives[t] = (info["scatter"].T @ self.rates(t, v, a, y0).T).T
         y = np.broadcast_to(self.initial, (n, self.size)).copy()
-        return SparseProblem(self._rows, self._cols, base, drives, self.profiles, y)
+        return SparseProblem(self._rows, self._cols, base, drives, self.profiles, y,
+                             populations=self.n_states)
 
 
 def solver_for(setup) -> str:

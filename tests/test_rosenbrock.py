@@ -3,7 +3,6 @@
 from pathlib import Path
 
 import numpy as np
-import pytest
 
 import pumpsim
 from pumpsim.demo import demo_setup_path

@@ -32,6 +32,13 @@ solved using that structure:
 A step costs sparse products of the ``nnz`` couplings plus ``|P_b|^3`` per
 block and node, instead of exponentials of the whole system.
 
+Limits: a stiff rate times the step enters the stages, so round-off grows
+with it; nodes where it exceeds ``STIFF_LIMIT`` (atoms slower than a
+micrometre per second, far beyond the contract's decay rate times transit
+time of 1e6) are handed to the exponential integrator, exact for any rate.
+The Schur complement's diagonal is formed from column sums, without
+cancellation, when the problem says which states are populations.
+
 Conservation: the population rows of every column of the generator sum to
 zero, so every stage ``K_i`` has zero population sum and the populations sum
 to one to round-off. Unlike the exponential integrator this one does not
@@ -44,6 +51,7 @@ from scipy.sparse.csgraph import connected_components
 from scipy import sparse
 
 from .base import Propagator, Trajectory
+from .exponential import ExponentialPropagator
 from .sparse import SparseProblem
 
 GAMMA = 0.25
@@ -61,6 +69,7 @@ C = ((), (-5.6688,), (-2.430093356833875, -0.2063599157091915),
 M_WEIGHTS = _A5 + (1.0, 1.0)
 FD_STEP = 1e-3  # central difference of the profiles, as a fraction of the step
 KAPPA = 1.0  # largest change of a stiff rate within a step, relative to 1/h + the rate
+STIFF_LIMIT = 1e8  # nodes with step * rate above this go to the exponential integrator
 BLOCK_ENTRIES = 4_000_000  # nodes are integrated in blocks of about this many stored values
 
 
@@ -146,6 +155,7 @@ class _Structure:
         self.F = _independent_set(list(T), rows, cols, stiffness)
         self.P = np.setdiff1d(T, self.F)
         local = np.full(m, -1)
+        self.local = local
         local[self.F] = np.arange(len(self.F))
         local[self.P] = np.arange(len(self.P))
         in_F, in_P, in_R = (np.isin(np.arange(m), x) for x in (self.F, self.P, self.R))
@@ -160,6 +170,14 @@ class _Structure:
         self.gather_PF = _Gather(PF, local[rows[PF]], local[cols[PF]], len(self.P))
         self.gather_RT = _Gather(RT, np.searchsorted(self.R, rows[RT]), cols[RT], len(self.R))
         self._blocks(rows, cols, local, in_P, FP, PF)
+        # for cancellation-free diagonals (see _factor): rates from T into population
+        # receivers (the sink), summed per column, and the F -> P column weights
+        self.exact = problem.populations is not None
+        if self.exact:
+            lost = np.nonzero(in_R[rows] & (rows < problem.populations))[0]
+            self.lost, self.lost_col = lost, cols[lost]
+            self.FP, self.FP_f = FP, local[rows[FP]]
+            self.FP_sum = _summing(local[cols[FP]], len(self.P))
 
     def _blocks(self, rows, cols, local, in_P, FP, PF):
         """Coupled blocks of the Schur complement on ``P`` and where its terms go."""
@@ -193,6 +211,20 @@ class _Structure:
                 diag=np.arange(k) * (k + 1)))
 
 
+def _column_sums(st, Jv, hg, dF):
+    """Column sums over ``P`` of the Schur complement on ``P``, shape (|P|, nodes).
+
+    ``M = I - hg J`` has population column sums ``c_j = 1 + hg (rate from j into
+    population receivers)`` over the solved states; eliminating ``F`` keeps column
+    sums ``c_q + sum_f hg J_fq c_f / d_f``, every term non-negative.
+    """
+    m_cols = np.zeros((len(st.local), Jv.shape[1]))
+    np.add.at(m_cols, st.lost_col, hg * Jv[st.lost])
+    c = 1.0 + m_cols
+    cF, cP = c[st.F], c[st.P]
+    return cP + st.FP_sum @ (hg * Jv[st.FP] * (cF / dF)[st.FP_f])
+
+
 class RosenbrockPropagator(Propagator):
     """Batched RODAS4 on a given grid with structured sparse solves (module docstring).
 
@@ -207,6 +239,31 @@ class RosenbrockPropagator(Propagator):
         if not isinstance(problem, SparseProblem):
             problem = SparseProblem.from_dense(problem)
         z = np.asarray(z, dtype=float)
+        rate = np.abs(problem.base).max(axis=1, initial=0.0)
+        if problem.drives.size:
+            rate = rate + np.abs(problem.drives).max(axis=(0, 2))
+        extreme = rate * np.diff(z).max(initial=0.0) > STIFF_LIMIT
+        if not extreme.any():
+            return self._normal(problem, z, reducer)
+        # far beyond the contract's stiffness: the exponential is exact for any rate
+        final = np.empty(problem.y0.shape)
+        reduced, steps = None, 0
+        for g, nodes in enumerate((np.nonzero(~extreme)[0], np.nonzero(extreme)[0])):
+            if not len(nodes):
+                continue
+            sub = problem.subset(nodes)
+            part = reducer[:, nodes] if reducer is not None else None
+            if g:
+                traj = ExponentialPropagator().propagate(sub.dense(), z, part)
+            else:
+                traj = self._normal(sub, z, part)
+            final[nodes] = traj.final
+            steps = max(steps, traj.steps)
+            if traj.reduced is not None:
+                reduced = traj.reduced if reduced is None else reduced + traj.reduced
+        return Trajectory(z, final, reduced, steps)
+
+    def _normal(self, problem, z, reducer):
         structure = _Structure(problem)
         n = problem.size
         step = max(1, BLOCK_ENTRIES // max(1, len(problem.rows) + problem.states))
@@ -299,6 +356,8 @@ class RosenbrockPropagator(Propagator):
         n = Jv.shape[1]
         dF = np.ones((len(st.F), n))
         dF[st.diag_F_pos] -= hg * Jv[st.diag_F]
+        if st.exact:
+            column = _column_sums(st, Jv, hg, dF)
         inverses = []
         for b in st.blocks:
             k = b["k"]
@@ -307,6 +366,14 @@ class RosenbrockPropagator(Propagator):
             S[b["diag"]] += 1.0
             if len(b["e1"]):
                 S -= b["schur"] @ ((hg * hg) * Jv[b["e1"]] * Jv[b["e2"]] / dF[b["f"]])
+            if st.exact:
+                # diagonal from the column sum and the (same-signed) off-diagonals, as in
+                # Grassmann-Taksar-Heyman elimination: subtracting terms of size h*rate
+                # would leave nothing of a unit margin for extremely stiff nodes
+                S3 = S.reshape(k, k, n)
+                idx = np.arange(k)
+                off = S3.sum(axis=0) - S3[idx, idx]
+                S3[idx, idx] = column[b["members"]] - off
             inverses.append(np.linalg.inv(S.T.reshape(n, k, k)))
 
         def solve(rhs):

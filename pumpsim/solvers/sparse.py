@@ -28,6 +28,11 @@ class SparseProblem:
     profiles : callable
         ``profiles(z)`` for ``z`` of shape (k,) returns (T, k).
     y0 : ndarray, shape (n, m)
+    populations : int or None
+        The first ``populations`` states are populations (the rest running
+        integrals): their rows of every column sum to zero and their
+        off-diagonal entries are >= 0. Solvers may use it to avoid
+        cancellation; ``None``: unknown.
     """
 
     rows: np.ndarray
@@ -36,6 +41,7 @@ class SparseProblem:
     drives: np.ndarray
     profiles: object
     y0: np.ndarray
+    populations: int | None = None
 
     @property
     def size(self):
@@ -57,7 +63,7 @@ class SparseProblem:
 
     def subset(self, index) -> "SparseProblem":
         return SparseProblem(self.rows, self.cols, self.base[index], self.drives[:, index],
-                             self.profiles, self.y0[index])
+                             self.profiles, self.y0[index], self.populations)
 
     def dense(self) -> LinearProblem:
         """The same problem as a dense :class:`LinearProblem` (small bases only)."""
