@@ -157,10 +157,11 @@ def test_stale_results_never_overwrite_newer_ones(open_window, qtbot, cheap_path
     """The engine result of an old request arrives after the quick one of a newer
     request (its run ignores being superseded): it must not be shown."""
     setup = pumpsim.load_setup(cheap_path)
-    slow = threading.Event()
+    slow, started = threading.Event(), threading.Event()
 
     def full(s, superseded):
         if s.beam("pump").power == setup.beam("pump").power:
+            started.set()
             slow.wait(10)  # the first request's run ends late, whatever happens
         return pumpsim.simulate(s)
 
@@ -168,10 +169,13 @@ def test_stale_results_never_overwrite_newer_ones(open_window, qtbot, cheap_path
     live = LiveCompute(full=full)
     live.updated.connect(lambda u: emitted.append(u.rank))
     w = open_window(setup, live=live)
-    qtbot.waitUntil(lambda: w.shown is not None, timeout=WAIT_MS)
+    # Edit only once the first engine run has begun: an edit during the quiet
+    # wait before it would cancel it, and there would be no stale result.
+    qtbot.waitUntil(started.is_set, timeout=WAIT_MS)
     assert w.apply_edit("beam.pump.power_mW", 3.0)
     qtbot.waitUntil(lambda: w.shown.generation == 2, timeout=WAIT_MS)
     slow.set()
+    qtbot.waitUntil(lambda: (1, 1) in emitted and (2, 1) in emitted, timeout=WAIT_MS)
     shown = wait_engine(qtbot, w)
     assert (1, 1) in emitted  # the stale engine result did arrive ...
     assert shown.generation == 2 and shown.result.setup.beam("pump").power == pytest.approx(3e-3)
