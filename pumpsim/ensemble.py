@@ -46,6 +46,10 @@ def starting_point(tolerance):
         return dict(per_waist=2, rung=0, panels=3)
     return dict(per_waist=4, rung=1, panels=6)
 DEFLECTION_FLOOR = 1e-7  # rad; below this a deflection is judged absolutely
+# Speed panels are not split below this fraction of the speed support. Where the source
+# density stays finite at v = 0 the mean photon number and deflection of the slowest
+# atoms diverge (transit time 1/v), so bisection there would never end.
+NARROWEST_PANEL = 1e-6
 
 
 # numpy releases the GIL inside its array loops, so threads share the batched work
@@ -289,10 +293,18 @@ class EnsembleIntegrator:
         rule = self.inner_rule(sizes["angle"], sizes["offset"])
         converged = ode_err <= ODE_SHARE * self.tol and inner_err <= INNER_SHARE * self.tol
         speed_err = sum(r["err"] for r in recs)
+        narrowest = NARROWEST_PANEL * (edges[-1] - edges[0])
+        stuck_at = None
         while speed_err > SPEED_SHARE * self.tol:
             limit = SPEED_SHARE * self.tol / len(recs)
             worst = max(r["err"] for r in recs)
-            split = [r for r in recs if r["err"] > limit or r["err"] == worst]
+            split = [r for r in recs if (r["err"] > limit or r["err"] == worst)
+                     and r["hi"] - r["lo"] > narrowest]
+            if not split:  # the error sits in panels too narrow to split again
+                worst_rec = max(recs, key=lambda r: r["err"])
+                stuck_at = 0.5 * (worst_rec["lo"] + worst_rec["hi"])
+                converged = False
+                break
             new_panels = [p for r in split for p in ((r["lo"], 0.5 * (r["lo"] + r["hi"])),
                                                       (0.5 * (r["lo"] + r["hi"]), r["hi"]))]
             if self.evaluated + len(new_panels) * 15 * len(rule[0]) > self.max_nodes:
@@ -315,4 +327,5 @@ class EnsembleIntegrator:
                   "total": ode_err + inner_err + speed_err}
         return EnsembleAverage(values, profile, z, nodes, per, errors, self.evaluated,
                                converged and speed_err <= SPEED_SHARE * self.tol,
-                               dict(sizes, speed_panels=len(recs)), time.perf_counter() - t0)
+                               dict(sizes, speed_panels=len(recs), unresolved_speed=stuck_at),
+                               time.perf_counter() - t0)

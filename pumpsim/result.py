@@ -37,6 +37,10 @@ class NumericsReport:
         Largest ``|sum of populations - 1|`` over nodes.
     seconds : float
         Wall time.
+    unresolved_speed_m_s : float or None
+        Where speed refinement stopped because the panels there could not be
+        narrowed further (atoms near rest whose mean photons or deflection
+        diverge); ``None`` when it did not. Left out of ``to_dict`` when ``None``.
     """
 
     solver: str
@@ -52,9 +56,10 @@ class NumericsReport:
     converged: bool
     conservation_error: float
     seconds: float
+    unresolved_speed_m_s: float = None
 
     def to_dict(self):
-        return dict(self.__dict__)
+        return {k: v for k, v in self.__dict__.items() if v is not None}
 
     def warnings(self):
         """Plain-words reasons the numbers are not converged, and by how much
@@ -69,6 +74,11 @@ class NumericsReport:
                 and e["ode"] >= e["angle_offset"] else
                 f"raise numerics.max_nodes (now {self.nodes_evaluated} nodes evaluated) or "
                 "loosen numerics.tolerance")
+        if self.unresolved_speed_m_s is not None:
+            hint = (f"the speed integral does not settle near {self.unresolved_speed_m_s:.3g} "
+                    "m/s: the slowest atoms dominate the mean photons or deflection (their "
+                    "mean diverges when the source has atoms near rest); the populations "
+                    "are not affected as much")
         if e["total"] > self.tolerance:
             out.append(f"NOT converged: error estimate {e['total']:.2e} exceeds the tolerance "
                        f"{self.tolerance:g} by {e['total'] / self.tolerance:.3g} times "

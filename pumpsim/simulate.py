@@ -55,7 +55,8 @@ def simulate(setup, basis=None, progress=None) -> Result:
         offset_nodes=ens.rules["offset"], speed_panels=ens.rules["speed_panels"],
         error_estimate=ens.errors,
         converged=bool(ens.converged and conservation <= CONSERVATION_LIMIT),
-        conservation_error=conservation, seconds=ens.seconds)
+        conservation_error=conservation, seconds=ens.seconds,
+        unresolved_speed_m_s=ens.rules["unresolved_speed"])
     final = {lid: float(p) for lid, p in zip(levels, pops)}
     sublevels = None
     if isinstance(model.basis, SublevelBasis):
