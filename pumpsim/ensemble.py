@@ -220,6 +220,11 @@ class EnsembleIntegrator:
         group = np.repeat(np.arange(len(panels)), 15 * k)
         return V, np.tile(a_in, len(vs)), np.tile(y_in, len(vs)), WK, WG, group
 
+    def affordable(self, sizes, per_rule_node):
+        """Whether evaluating ``per_rule_node`` nodes for every node of the inner rule
+        ``sizes`` stays within ``max_nodes``."""
+        return self.evaluated + per_rule_node * sizes["angle"] * sizes["offset"] <= self.max_nodes
+
     def inner_rule(self, n_angle, n_offset):
         src = self.model.setup.source
         a, wa = normal_rule(n_angle, src.divergence_rms)
@@ -276,11 +281,17 @@ class EnsembleIntegrator:
         inner_err = 0.0
         start_sizes = dict(sizes)
         current = sum(r["G"] for r in recs) if not single else recs[0]["K"]
+        within_budget = True
         for dim, ladder in (("angle", ANGLE_RULES), ("offset", OFFSET_RULES)):
             if sizes[dim] == 1:
                 continue
-            for nxt in ladder[ladder.index(sizes[dim]) + 1:]:
+            for step, nxt in enumerate(ladder[ladder.index(sizes[dim]) + 1:]):
                 trial = dict(sizes, **{dim: nxt})
+                # the trial's Gauss sum, then the Kronrod run of the rule it may become;
+                # the first trial always runs, as without it there is no error estimate
+                if step and not self.affordable(trial, 2 if single else 22 * len(panels)):
+                    within_budget = False
+                    break
                 value = self.gauss_total(panels, self.inner_rule(trial["angle"], trial["offset"]), z)
                 err = float(np.max(np.abs(value - current) / self.scale(value)))
                 self.progress(f"{dim} rule {sizes[dim]} -> {nxt} nodes: change {err:.2g}")
@@ -289,9 +300,13 @@ class EnsembleIntegrator:
                 sizes, current = trial, value
             inner_err += err
         if sizes != start_sizes:
-            recs = self.run_panels(panels, self.inner_rule(sizes["angle"], sizes["offset"]), z)
+            if self.affordable(sizes, 1 if single else 15 * len(panels)):
+                recs = self.run_panels(panels, self.inner_rule(sizes["angle"], sizes["offset"]), z)
+            else:  # keep the first rules' panels; the change measured says how far off
+                sizes, within_budget = start_sizes, False
         rule = self.inner_rule(sizes["angle"], sizes["offset"])
-        converged = ode_err <= ODE_SHARE * self.tol and inner_err <= INNER_SHARE * self.tol
+        converged = (within_budget and ode_err <= ODE_SHARE * self.tol
+                     and inner_err <= INNER_SHARE * self.tol)
         speed_err = sum(r["err"] for r in recs)
         narrowest = NARROWEST_PANEL * (edges[-1] - edges[0])
         stuck_at = None

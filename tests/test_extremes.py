@@ -208,6 +208,18 @@ def test_max_nodes_too_small_is_reported_with_the_estimate(tmp_path):
     assert res["numerics"]["error_estimate"]["total"] == pytest.approx(total)
 
 
+def test_max_nodes_bounds_the_angle_and_offset_rules_too(tmp_path):
+    # A 20 mrad divergent effusive beam under a perpendicular pump needs large angle
+    # and offset rules; numerics.max_nodes must bound them as it bounds the speed
+    # panels (its contract: README), and the run must say it stopped for that reason.
+    src = dict(effusive(1000.0), divergence_rms_mrad=20.0, width_rms_mm=1.0)
+    setup = write_case(tmp_path, source=src, tolerance=1e-4, extra_numerics={"max_nodes": 20000})
+    n = pumpsim.simulate(setup).numerics
+    assert n.nodes_evaluated <= 20000 and not n.converged
+    assert "numerics.max_nodes" in n.warnings()[0]
+    assert n.error_estimate["angle_offset"] > n.tolerance  # the estimate says how far off
+
+
 def test_non_finite_results_are_refused(tmp_path, monkeypatch):
     """If an integration overflows, simulate raises rather than report NaN."""
     from pumpsim import ensemble
