@@ -18,6 +18,9 @@ from .lines import line
 from .solvers.base import LinearProblem
 
 GAP_COARSENING = 4.0  # steps outside every beam are this much longer (decay only: exact)
+# Decay-only stretches are integrated exactly whatever their steps, so their step count is
+# capped: the cap only sets how finely populations are sampled there for plots.
+GAP_MAX_STEPS = 64
 
 
 def initial_level_populations(setup) -> np.ndarray:
@@ -126,9 +129,10 @@ class RateModel:
         wmax = max((w for _, _, w in merged), default=(hi - lo) / 8)
         points, cursor = [lo], lo
         for a, b, w in merged + [(hi, hi, wmax)]:
-            for start, end, step in ((cursor, a, GAP_COARSENING * wmax), (a, b, w)):
+            for start, end, step, cap in ((cursor, a, GAP_COARSENING * wmax, GAP_MAX_STEPS),
+                                          (a, b, w, math.inf)):
                 if end > start:
-                    k = max(1, math.ceil((end - start) / step * per_waist))
+                    k = max(1, min(cap, math.ceil((end - start) / step * per_waist)))
                     points.extend(np.linspace(start, end, k + 1)[1:])
             cursor = max(cursor, b)
         return np.unique(np.array(points))
