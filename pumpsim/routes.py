@@ -24,7 +24,7 @@ from .errors import InputError
 from .limits import branching_limit
 from .lines import line
 from .safety import GENERAL
-from .sizing import TYPICAL_SEARCH, least_power_search, shown_cautions
+from .sizing import TYPICAL_SEARCH, check_request, least_power_search, shown_cautions
 
 
 @dataclass(frozen=True)
@@ -121,13 +121,7 @@ def compare(setup, beam, F, executor=None, routes=None, progress=None) -> list:
     list of Route
         Best first.
     """
-    names = [b.name for b in setup.beams]
-    if beam not in names:
-        raise InputError(f"no beam named {beam!r} (beams: {', '.join(names) or 'none'})",
-                         setup.path, "--beam")
-    if not 0 < F < 1:
-        raise InputError(f"the target fraction must lie between 0 and 1, got {F!r}",
-                         setup.path, "--target-fraction")
+    check_request(setup, beam, F)
     every = candidates(setup, beam)
     lower = setup.beam(beam).lower
     chosen = tuple(routes) if routes else every

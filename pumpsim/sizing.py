@@ -412,6 +412,23 @@ def _bounds(value, given, name):
     return (lo, hi)
 
 
+
+def check_request(setup, beam, F):
+    """Refuse a beam the setup does not have, or a target fraction outside (0, 1).
+
+    Raises
+    ------
+    InputError
+        Naming the command-line option at fault.
+    """
+    names = [b.name for b in setup.beams]
+    if beam not in names:
+        raise InputError(f"no beam named {beam!r} (beams: {', '.join(names) or 'none'})",
+                         setup.path, "--beam")
+    if not 0 < F < 1:
+        raise InputError(f"the target fraction must lie between 0 and 1, got {F!r}",
+                         setup.path, "--target-fraction")
+
 def size(setup, beam, F, executor=None, power=None, along=None, across=None,
          map_points=10, power_range=None, progress=None) -> Sizing:
     """Size one beam of a setup for transfer fraction ``F``.
@@ -442,13 +459,7 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
     -------
     Sizing
     """
-    names = [b.name for b in setup.beams]
-    if beam not in names:
-        raise InputError(f"no beam named {beam!r} (beams: {', '.join(names) or 'none'})",
-                         setup.path, "--beam")
-    if not 0 < F < 1:
-        raise InputError(f"the target fraction must lie between 0 and 1, got {F!r}",
-                         setup.path, "--target-fraction")
+    check_request(setup, beam, F)
     if map_points and map_points < 2:
         raise InputError("the map needs at least 2 points per axis (or 0 for none)",
                          setup.path, "--map")
