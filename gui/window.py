@@ -228,7 +228,9 @@ class MainWindow(QMainWindow):
         self.shown = update
         pending = update.generation < self.live.generation
         self.readouts.display(update, pending)
-        if self.failure is not None and update.generation > self.failure[0]:
+        # a newer request's result, or the engine result of the request whose quick stage failed
+        if self.failure is not None and (update.generation, update.stage == "engine") > (
+                self.failure[0], False):
             if self.message.text == self.failure[1]:  # it no longer describes what is shown
                 self.message.hide()
             self.failure = None
@@ -255,8 +257,10 @@ class MainWindow(QMainWindow):
     def _mark_failure(self):
         """The readout of a request that failed must not promise a converged result."""
         if self.failure is not None and self.shown is not None \
-                and self.shown.generation == self.failure[0]:
+                and self.shown.generation == self.failure[0] and self.shown.stage == "quick":
             self.readouts.set_stage("computation failed", "unconverged")
+            self.readouts.detail.setText("Quick estimate only: the engine run failed (see the "
+                                         "message above)")
 
     # -- studies ----------------------------------------------------------------
     def _tab_changed(self, _index):

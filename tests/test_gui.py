@@ -461,6 +461,7 @@ def test_a_failed_computation_shows_a_message_and_keeps_the_edits(open_window, q
     qtbot.waitUntil(lambda: w.shown is not None and w.shown.generation == w.live.generation,
                     timeout=WAIT_MS)  # the quick estimate of the failed request is shown ...
     assert w.readouts.stage.text() == "computation failed"  # ... and says no result comes
+    assert "engine run failed" in w.readouts.detail.text()
     assert not w.export_result_action.isEnabled()
 
     assert w.apply_edit("beam.pump.waist_mm", 1.5)  # the window still computes
