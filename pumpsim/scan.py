@@ -477,7 +477,7 @@ def write_scan_file(path, setup, axes, points, command, created, resumed, comple
                 ds.dims[d].attach_scale(sc)
         f.attrs["complete"] = complete  # last: a file cut short never says complete
     if complete:  # on the disk before the rename makes it the finished file
-        fd = os.open(path, os.O_RDONLY)
+        fd = os.open(path, os.O_RDWR)  # a writable handle: Windows syncs only those
         try:
             os.fsync(fd)
         finally:
