@@ -63,9 +63,9 @@ def interrupt_after(monkeypatch, n):
     monkeypatch.setattr(scan_mod, "evaluate", evaluate)
 
 
-def interrupted_scan(tmp_path, monkeypatch, setup, out, done, vary=SMALL):
+def interrupted_scan(monkeypatch, setup, out, done):
     """A scan stopped after ``done`` points, through the library (serial)."""
-    texts = [v for v in vary if v != "--vary"]
+    texts = [v for v in SMALL if v != "--vary"]
     with monkeypatch.context() as m:
         interrupt_after(m, done)
         with pytest.raises(KeyboardInterrupt):
@@ -127,7 +127,7 @@ def test_killed_scan_resumes_to_the_uninterrupted_file(tmp_path, capsys):
 def test_resume_with_other_inputs_is_refused(tmp_path, monkeypatch, capsys, change, words):
     setup = three_level(tmp_path)
     out = tmp_path / "scan.h5"
-    interrupted_scan(tmp_path, monkeypatch, setup, out, 2)
+    interrupted_scan(monkeypatch, setup, out, 2)
     before = journal_path(out).read_bytes()
     code, stdout, err = cli(capsys, "scan", setup.path, *change, "--out", out, "--workers", 1,
                             "--resume")
@@ -140,7 +140,7 @@ def test_resume_with_other_inputs_is_refused(tmp_path, monkeypatch, capsys, chan
 def test_torn_last_record_is_ignored_and_pool_resumes(tmp_path, monkeypatch, capsys):
     setup = three_level(tmp_path)
     out, ref = tmp_path / "torn.h5", tmp_path / "straight.h5"
-    interrupted_scan(tmp_path, monkeypatch, setup, out, 3)
+    interrupted_scan(monkeypatch, setup, out, 3)
     journal = journal_path(out)
     lines = journal.read_bytes().splitlines(keepends=True)
     whole = journal.read_bytes()
@@ -176,7 +176,7 @@ def test_resume_without_journal_runs_and_a_new_run_replaces_one(tmp_path, monkey
     with h5py.File(out) as f:
         assert f.attrs["points_resumed"] == 0
     out2 = tmp_path / "again.h5"
-    interrupted_scan(tmp_path, monkeypatch, setup, out2, 2)
+    interrupted_scan(monkeypatch, setup, out2, 2)
     with h5py.File(partial_path(out2)) as f:  # the snapshot of a stopped (not killed) scan
         assert not f.attrs["complete"] and f["results/done"][()].sum() == 2
     code, _, err = cli(capsys, "scan", setup.path, *SMALL, "--out", out2, "--workers", 1)

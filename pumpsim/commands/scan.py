@@ -1,4 +1,5 @@
-"""``pumpsim scan SETUP --vary KEY=START:STOP:N[:log] ... --out FILE.h5``: grids to HDF5."""
+"""``pumpsim scan SETUP --vary KEY=START:STOP:N[:log] ... --out FILE.h5 [--resume]``:
+grids to HDF5, resumable after an interruption."""
 
 from dataclasses import replace
 from pathlib import Path
