@@ -68,6 +68,7 @@ class MainWindow(QMainWindow):
         self.studies = StudyCompute(self)
         self.freshness = Freshness()
         self.shown = None
+        self.failure = None  # (generation, message) of the newest request that raised
         self.study_keys = {}
 
         self.message = MessageBar()
@@ -90,7 +91,7 @@ class MainWindow(QMainWindow):
         self.study_timer.timeout.connect(self._refresh_tab)
         self.panel.edited.connect(self.apply_edit)
         self.live.updated.connect(self._on_update)
-        self.live.failed.connect(lambda gen, text: self.message.show_message(text))
+        self.live.failed.connect(self._on_failed)
         self.studies.progressed.connect(self._on_study_point)
         self.studies.failed.connect(self.message.show_message)
         self.routes.use_route.connect(
@@ -227,6 +228,13 @@ class MainWindow(QMainWindow):
         self.shown = update
         pending = update.generation < self.live.generation
         self.readouts.display(update, pending)
+        # a newer request's result, or the engine result of the request whose quick stage failed
+        if self.failure is not None and (update.generation, update.stage == "engine") > (
+                self.failure[0], False):
+            if self.message.text == self.failure[1]:  # it no longer describes what is shown
+                self.message.hide()
+            self.failure = None
+        self._mark_failure()
         self.profile.display(update, self.goal.value())
         done = update.stage == "engine" and not pending
         self.export_result_action.setEnabled(done)
@@ -236,6 +244,23 @@ class MainWindow(QMainWindow):
             f"{n.seconds * 1e3:.0f} ms, on screen "
             f"{(time.perf_counter() - update.requested) * 1e3:.0f} ms after the change")
         self.displayed.emit(update)
+
+    def _on_failed(self, generation, text):
+        """A computation raised: say so in the window; the setup and its edits stay."""
+        if generation < self.live.generation:
+            return  # a newer request is under way and answers for itself
+        self.failure = (generation, f"{text} — the setup and your unsaved changes are kept; "
+                                    "change a value to compute again.")
+        self.message.show_message(self.failure[1])
+        self._mark_failure()
+
+    def _mark_failure(self):
+        """The readout of a request that failed must not promise a converged result."""
+        if self.failure is not None and self.shown is not None \
+                and self.shown.generation == self.failure[0] and self.shown.stage == "quick":
+            self.readouts.set_stage("computation failed", "unconverged")
+            self.readouts.detail.setText("Quick estimate only: the engine run failed (see the "
+                                         "message above)")
 
     # -- studies ----------------------------------------------------------------
     def _tab_changed(self, _index):

@@ -2,15 +2,42 @@
 
 An axis is written ``KEY=START:STOP:N[:log]`` with the keys of ``--set``
 (file units: ``beam.pump.power_mW=1:100:21:log``). Every grid point is one
-independent simulation, run through an executor and written to the file as
-it finishes. The file is built under a temporary name (``FILE.partial``,
-which then holds the points done so far and ``complete = False``) and renamed
-when every point is in.
+independent simulation, run through an executor.
+
+Keeping the work of a long scan. Each finished point is appended at once, as
+one JSON line, to a journal beside the output (``FILE.journal``, i.e.
+``scan.h5.journal``), flushed to the operating system after every point (so
+it survives the process being killed at any instant, SIGKILL included) and
+fsync'd at least every :data:`FSYNC_EVERY` seconds (so at most that much is
+lost to a power cut). Its first line holds the inputs: the setup as run, the
+scheme, the axes, the levels, beams and pumpsim version. HDF5 is not written
+while points are computed, because a file that h5py is changing cannot
+survive a kill. When every point is in, the HDF5 file is built under the
+temporary name ``FILE.partial``, its root attribute ``complete`` set true,
+synced to disk and renamed to ``FILE``; the journal is then deleted. If the
+scan stops on an exception or Ctrl-C, ``FILE.partial`` is written with the
+points done so far (``complete = False``, ``results/done``) for a look at
+them; after a kill only the journal is there. ``FILE`` itself never exists
+before every point is in.
+
+``scan(..., resume=True)`` (``pumpsim scan ... --resume``) reads the journal,
+ignoring a torn or garbled tail (a line cut by the kill is not a record, and
+so is everything after it; the file is cut back to its last whole record),
+refuses with an :class:`~pumpsim.errors.InputError` if the setup as run, the
+scheme, the axes or the pumpsim version differ from this call's, and computes
+only the missing points. Each point is a deterministic simulation and the
+journal keeps every number exactly (JSON's shortest round-trip float
+text), so the finished file holds the same values as an uninterrupted run.
+Only these may differ: ``results/seconds`` (each point's own wall time),
+the root attributes ``command`` (as typed, with ``--resume``) and
+``points_resumed`` (points taken from the journal, 0 for a scan that ran
+straight through); ``created_utc`` is the time the scan was first started.
 
 File layout (HDF5):
 
 - root attributes ``kind = "scan"``, ``pumpsim_version``, ``created_utc``,
-  ``command``, ``shape``, ``axes`` (keys in order), ``complete``;
+  ``command``, ``shape``, ``axes`` (keys in order), ``complete``,
+  ``points_resumed``;
 - ``inputs/``: the setup and scheme files verbatim, the setup as run (after
   ``--set``), and the ``--vary`` strings (attribute ``vary``);
 - ``axes/KEY``: each axis's values, a dimension scale, with ``units`` and
@@ -22,8 +49,11 @@ File layout (HDF5):
   the axes' scales.
 """
 
+import contextlib
 import datetime
+import json
 import os
+import time
 from dataclasses import dataclass
 from itertools import product
 from pathlib import Path
@@ -38,6 +68,10 @@ from .h5out import write_inputs
 from .outcome import evaluate
 from .safety import cautions
 from .schema import FIELDS
+from .setup_file import setup_to_toml
+
+JOURNAL_FORMAT = 1  # first-line marker of a scan journal, raised if its layout changes
+FSYNC_EVERY = 1.0  # s: longest a finished point waits to be forced onto the disk
 
 
 @dataclass(frozen=True)
@@ -158,13 +192,17 @@ def parse_axes(texts, setup) -> tuple:
     return axes
 
 
+def setup_at(setup, axes, values):
+    """The setup at one grid point (axis values in file units)."""
+    for a, v in zip(axes, values):
+        setup = setup.with_value(a.key, v)
+    return setup
+
+
 def point_setups(setup, axes):
     """The setup at every grid point, last axis fastest (lazily)."""
     for values in product(*(a.values for a in axes)):
-        s = setup
-        for a, v in zip(axes, values):
-            s = s.with_value(a.key, v)
-        yield s
+        yield setup_at(setup, axes, values)
 
 
 def scan_cautions(setup, axes):
@@ -190,6 +228,8 @@ class Scan:
         Transfer fraction on the grid.
     converged : ndarray of bool
     cautions : list of str
+    resumed : int
+        Points taken from an interrupted run's journal (``resume=True``).
     """
 
     path: Path
@@ -198,6 +238,7 @@ class Scan:
     fraction: np.ndarray
     converged: np.ndarray
     cautions: list
+    resumed: int = 0
 
     @property
     def shape(self):
@@ -212,23 +253,204 @@ class Scan:
                 "transfer_fraction_min": float(np.nanmin(self.fraction)),
                 "transfer_fraction_max": float(np.nanmax(self.fraction)),
                 "all_converged": bool(self.converged.all()),
+                "points_resumed": self.resumed,
                 "cautions": list(self.cautions)}
 
 
-class ScanFile:
-    """The HDF5 file of a scan, filled point by point under a temporary name."""
 
-    def __init__(self, path, setup, axes, command=""):
-        self.path = Path(path)
-        self.tmp = self.path.with_name(self.path.name + ".partial")
-        shape = tuple(len(a.values) for a in axes)
-        levels = setup.scheme.ids + ("other",)
-        beams = [b.name for b in setup.beams]
-        self.levels, self.beams = levels, beams
-        f = self.f = h5py.File(self.tmp, "w")
+def journal_path(out) -> Path:
+    """Where the scan writing ``out`` keeps its finished points."""
+    out = Path(out)
+    return out.with_name(out.name + ".journal")
+
+
+def partial_path(out) -> Path:
+    """The temporary name of the HDF5 file until it is complete."""
+    out = Path(out)
+    return out.with_name(out.name + ".partial")
+
+
+class Points:
+    """The results of a grid in memory, filled from outcomes or journal records."""
+
+    def __init__(self, shape, levels, beams):
+        self.shape, self.levels, self.beams = shape, levels, beams
+        self.fraction = np.full(shape, np.nan)
+        self.pops = np.full(shape + (len(levels),), np.nan)
+        self.photons = np.full(shape + (len(beams),), np.nan)
+        self.defl = np.full(shape + (len(beams),), np.nan)  # rad
+        self.error = np.full(shape, np.nan)
+        self.conv = np.zeros(shape, dtype=bool)
+        self.secs = np.full(shape, np.nan)
+        self.done = np.zeros(shape, dtype=bool)
+
+    def record(self, i, o) -> dict:
+        """One point's outcome as the journal stores it (``i``: flat index)."""
+        return {"i": int(i), "transfer_fraction": float(o.transfer_fraction),
+                "final_populations": [float(o.final_populations[k]) for k in self.levels],
+                "photons_per_atom": [float(o.photons_per_atom[b]) for b in self.beams],
+                "deflection_rad": [float(o.deflection[b]) for b in self.beams],
+                "error_estimate": float(o.error_estimate), "converged": bool(o.converged),
+                "seconds": float(o.seconds)}
+
+    def put(self, r):
+        """Store a record from :meth:`record`."""
+        index = np.unravel_index(r["i"], self.shape)
+        self.fraction[index] = r["transfer_fraction"]
+        self.pops[index] = r["final_populations"]
+        self.photons[index] = r["photons_per_atom"]
+        self.defl[index] = r["deflection_rad"]
+        self.error[index] = r["error_estimate"]
+        self.conv[index] = r["converged"]
+        self.secs[index] = r["seconds"]
+        self.done[index] = True
+
+    def valid(self, r) -> bool:
+        """Whether a parsed journal line is a whole record of this grid."""
+        return (isinstance(r, dict) and type(r.get("i")) is int
+                and 0 <= r["i"] < self.done.size
+                and all(isinstance(r.get(k), (int, float)) and not isinstance(r.get(k), bool)
+                        for k in ("transfer_fraction", "error_estimate", "seconds"))
+                and isinstance(r.get("converged"), bool)
+                and all(isinstance(r.get(k), list) and len(r[k]) == n
+                        and all(isinstance(x, (int, float)) for x in r[k])
+                        for k, n in (("final_populations", len(self.levels)),
+                                     ("photons_per_atom", len(self.beams)),
+                                     ("deflection_rad", len(self.beams)))))
+
+
+def journal_header(setup, axes, created):
+    """The journal's first line: everything a resumed run must agree with."""
+    return {"pumpsim_scan_journal": JOURNAL_FORMAT, "pumpsim_version": __version__,
+            "created_utc": created, "setup_as_run_toml": setup_to_toml(setup),
+            "scheme_toml": setup.scheme.text or "",
+            "axes": [{"key": a.key, "values": list(a.values), "spacing": a.spacing,
+                      "text": a.text} for a in axes],
+            "levels": list(setup.scheme.ids + ("other",)),
+            "beams": [b.name for b in setup.beams]}
+
+
+class Journal:
+    """An append-only file of finished points, one JSON line each, after a header line.
+
+    Every line is flushed to the operating system as it is written, so a killed
+    process loses at most the line it was writing (a torn last line, which
+    :func:`read_journal` ignores); it is fsync'd to the disk at least every
+    :data:`FSYNC_EVERY` seconds.
+    """
+
+    def __init__(self, path, fh):
+        self.path, self.fh = Path(path), fh
+        self.synced = time.monotonic()
+
+    @classmethod
+    def create(cls, path, header):
+        """A new journal holding only ``header`` (replaces any file there)."""
+        j = cls(path, open(path, "wb"))
+        j.write(header)
+        j.sync()
+        return j
+
+    @classmethod
+    def reopen(cls, path, length):
+        """Continue a journal after its first ``length`` bytes (its whole records)."""
+        fh = open(path, "r+b")
+        fh.truncate(length)
+        fh.seek(length)
+        return cls(path, fh)
+
+    def write(self, obj):
+        self.fh.write(json.dumps(obj).encode() + b"\n")
+        self.fh.flush()
+        if time.monotonic() - self.synced >= FSYNC_EVERY:
+            self.sync()
+
+    def sync(self):
+        os.fsync(self.fh.fileno())
+        self.synced = time.monotonic()
+
+    def close(self):
+        if not self.fh.closed:
+            self.sync()
+            self.fh.close()
+
+
+def read_journal(path):
+    """What an interrupted scan's journal holds.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    tuple or None
+        ``(header, records, length)``: the header, the whole point records in
+        the order written, and the byte length of the file up to the last of
+        them; ``None`` if there is no file or no whole header line. Reading
+        stops at the first line that is cut short or is not a record of the
+        header's grid (a line being written when the process was killed).
+    """
+    try:
+        data = Path(path).read_bytes()
+    except FileNotFoundError:
+        return None
+    lines = data.split(b"\n")[:-1]  # the piece after the last newline is torn or empty
+    try:
+        header = json.loads(lines[0])
+        if header["pumpsim_scan_journal"] != JOURNAL_FORMAT:
+            return None
+        grid = Points(tuple(len(a["values"]) for a in header["axes"]), header["levels"],
+                      header["beams"])
+    except (IndexError, ValueError, KeyError, TypeError):
+        return None
+    records, length = [], len(lines[0]) + 1
+    for line in lines[1:]:
+        try:
+            r = json.loads(line)
+        except ValueError:
+            break
+        if not grid.valid(r):
+            break
+        records.append(r)
+        length += len(line) + 1
+    return header, records, length
+
+
+def check_resumable(header, setup, axes, out):
+    """Refuse to resume a journal written for other inputs.
+
+    Raises
+    ------
+    InputError
+        Naming ``out`` and the journal, and saying what differs.
+    """
+    now = journal_header(setup, axes, "")
+    where = dict(file=str(out), table="--resume")
+    then = header.get("axes") or []
+
+    def grid(axes_list):
+        return [(a.get("key"), a.get("values"), a.get("spacing")) for a in axes_list]
+
+    if grid(then) != grid(now["axes"]):
+        was = " ".join(str(a.get("text", a.get("key"))) for a in then)
+        raise InputError(f"the unfinished scan in {journal_path(out)} has other --vary axes "
+                         f"({was}) than this command ({' '.join(a.text for a in axes)}); run "
+                         "without --resume to start this scan afresh", **where)
+    for key, what in (("setup_as_run_toml", "setup (the file as run, with its --set values)"),
+                      ("scheme_toml", "level scheme"), ("pumpsim_version", "pumpsim version")):
+        if header.get(key) != now[key]:
+            raise InputError(f"the unfinished scan in {journal_path(out)} was run with another "
+                             f"{what}; give the same inputs to resume it, or run without "
+                             "--resume to start afresh", **where)
+
+
+def write_scan_file(path, setup, axes, points, command, created, resumed, complete):
+    """Write the HDF5 file of a scan (layout in the module docstring) in one go."""
+    with h5py.File(path, "w") as f:
         f.attrs.update(kind="scan", pumpsim_version=__version__, command=command,
-                       created_utc=datetime.datetime.now(datetime.timezone.utc).isoformat(),
-                       shape=shape, axes=[a.key for a in axes], complete=False)
+                       created_utc=created, shape=points.shape, axes=[a.key for a in axes],
+                       complete=False, points_resumed=resumed)
         write_inputs(f, setup)
         f["inputs"].attrs["vary"] = [a.text for a in axes]
         scales = []
@@ -239,46 +461,31 @@ class ScanFile:
             scales.append(ds)
         r = f.create_group("results")
         r.attrs["target"] = setup.target
-
-        def make(name, extra=(), fill=np.nan, dtype=float, **attrs):
-            ds = r.create_dataset(name, shape=shape + extra, dtype=dtype, fillvalue=fill)
+        for name, data, attrs in (
+                ("transfer_fraction", points.fraction, dict(units="fraction")),
+                ("final_populations", points.pops,
+                 dict(units="fraction", levels=list(points.levels))),
+                ("photons_per_atom", points.photons, dict(units="photons", beams=points.beams)),
+                ("deflection_mrad", points.defl * 1e3, dict(units="mrad", beams=points.beams)),
+                ("error_estimate", points.error, dict(units="fraction")),
+                ("converged", points.conv, {}),
+                ("seconds", points.secs, dict(units="s")),
+                ("done", points.done, {})):
+            ds = r.create_dataset(name, data=data)
             ds.attrs.update(attrs)
             for d, sc in enumerate(scales):
                 ds.dims[d].attach_scale(sc)
-            return ds
-
-        self.fraction = make("transfer_fraction", units="fraction")
-        self.pops = make("final_populations", (len(levels),), units="fraction", levels=list(levels))
-        self.photons = make("photons_per_atom", (len(beams),), units="photons", beams=beams)
-        self.defl = make("deflection_mrad", (len(beams),), units="mrad", beams=beams)
-        self.error = make("error_estimate", units="fraction")
-        self.conv = make("converged", fill=False, dtype=bool)
-        self.secs = make("seconds", units="s")
-        self.done = make("done", fill=False, dtype=bool)
-
-    def store(self, index, o):
-        """Write one point's outcome."""
-        self.fraction[index] = o.transfer_fraction
-        self.pops[index] = [o.final_populations[k] for k in self.levels]
-        self.photons[index] = [o.photons_per_atom[b] for b in self.beams]
-        self.defl[index] = [o.deflection[b] * 1e3 for b in self.beams]
-        self.error[index] = o.error_estimate
-        self.conv[index] = o.converged
-        self.secs[index] = o.seconds
-        self.done[index] = True
-
-    def finish(self):
-        """Mark complete and move into place."""
-        self.f.attrs["complete"] = True
-        self.f.close()
-        os.replace(self.tmp, self.path)
-
-    def abandon(self):
-        """Close, leaving the ``.partial`` file with what is done."""
-        self.f.close()
+        f.attrs["complete"] = complete  # last: a file cut short never says complete
+    if complete:  # on the disk before the rename makes it the finished file
+        fd = os.open(path, os.O_RDWR)  # a writable handle: Windows syncs only those
+        try:
+            os.fsync(fd)
+        finally:
+            os.close(fd)
 
 
-def scan(setup, axes, out, executor=None, progress=None, command="") -> Scan:
+def scan(setup, axes, out, executor=None, progress=None, command="", resume=False,
+         note=None) -> Scan:
     """Simulate every point of a grid and write the HDF5 file.
 
     Parameters
@@ -293,28 +500,74 @@ def scan(setup, axes, out, executor=None, progress=None, command="") -> Scan:
     progress : Progress, optional
     command : str
         The command line, stored in the file.
+    resume : bool
+        Continue the interrupted scan whose journal is beside ``out``
+        (module docstring); without a journal, start from the first point.
+        ``False`` replaces any journal there.
+    note : callable, optional
+        Called with one line for the user when a journal is resumed, absent
+        or replaced.
 
     Returns
     -------
     Scan
+
+    Raises
+    ------
+    InputError
+        ``resume`` with a journal written for other inputs (nothing is changed).
     """
     axes = tuple(axes)
     shape = tuple(len(a.values) for a in axes)
-    executor = executor or SerialExecutor()
+    note = note or (lambda line: None)
+    points = Points(shape, setup.scheme.ids + ("other",), [b.name for b in setup.beams])
+    jpath, tmp = journal_path(out), partial_path(out)
+    created = datetime.datetime.now(datetime.timezone.utc).isoformat()
+    found = read_journal(jpath) if resume else None
+    if found is not None:
+        header, records, length = found
+        check_resumable(header, setup, axes, out)
+        for r in records:
+            points.put(r)
+        created = header["created_utc"]
+        journal = Journal.reopen(jpath, length)
+        note(f"resuming the unfinished scan in {jpath}: {int(points.done.sum())} of "
+             f"{points.done.size} points already done")
+    else:
+        if resume:
+            note(f"nothing to resume ({jpath} " + ("is unreadable" if jpath.exists()
+                 else "does not exist") + "): starting from the first point")
+        elif jpath.exists() or tmp.exists():
+            note(f"replacing the unfinished scan in {jpath if jpath.exists() else tmp} "
+                 "(--resume would have continued it)")
+        journal = Journal.create(jpath, journal_header(setup, axes, created))
+    resumed = int(points.done.sum())
     if progress is not None:
-        progress.remaining_at_least(int(np.prod(shape)))
-    fraction = np.full(shape, np.nan)
-    converged = np.zeros(shape, dtype=bool)
-    sink = ScanFile(out, setup, axes, command)
+        progress.remaining_at_least(points.done.size - resumed)
+    order = []  # flat grid index of each submitted task, in submission order
+
+    def todo():
+        for i, values in enumerate(product(*(a.values for a in axes))):
+            if not points.done.flat[i]:
+                order.append(i)
+                yield setup_at(setup, axes, values)
+
     try:
-        for i, o in imap_unordered(executor, evaluate, point_setups(setup, axes)):
-            index = np.unravel_index(i, shape)
-            sink.store(index, o)
-            fraction[index], converged[index] = o.transfer_fraction, o.converged
+        for k, o in imap_unordered(executor or SerialExecutor(), evaluate, todo()):
+            r = points.record(order[k], o)
+            journal.write(r)
+            points.put(r)
             if progress is not None:
                 progress.advance()
     except BaseException:
-        sink.abandon()
+        journal.close()
+        # a readable snapshot of the points done; the journal, not this, is resumed
+        with contextlib.suppress(Exception):
+            write_scan_file(tmp, setup, axes, points, command, created, resumed, False)
         raise
-    sink.finish()
-    return Scan(Path(out), setup, axes, fraction, converged, scan_cautions(setup, axes))
+    journal.close()
+    write_scan_file(tmp, setup, axes, points, command, created, resumed, True)
+    os.replace(tmp, out)
+    jpath.unlink(missing_ok=True)
+    return Scan(Path(out), setup, axes, points.fraction, points.conv,
+                scan_cautions(setup, axes), resumed)

@@ -433,3 +433,43 @@ def test_switching_the_source_kind_from_its_control(open_window, qtbot, cheap_pa
     assert "source.speed_m_s" not in w.panel.rows and "source.temperature_K" in w.panel.rows
     qtbot.waitUntil(lambda: w.shown is not None and w.shown.result.setup.source.kind == "effusive",
                     timeout=WAIT_MS)
+
+
+# -- a failing computation ---------------------------------------------------------------
+
+def test_a_failed_computation_shows_a_message_and_keeps_the_edits(open_window, qtbot,
+                                                                  cheap_path):
+    """An exception in the engine stage of one request: the window says so, stays usable,
+    keeps the unsaved setup, and the next edit computes (common practice, no source)."""
+    setup = pumpsim.load_setup(cheap_path)
+
+    def full(s, superseded):
+        b = s.beam("pump")
+        if (b.power, b.waist) == pytest.approx((4e-3, 1e-3)):  # the one request that fails
+            raise RuntimeError("injected failure")
+        return pumpsim.simulate(s)
+
+    w = open_window(setup, live=LiveCompute(full=full))
+    wait_engine(qtbot, w)
+    assert not w.message.isVisible()
+    assert w.apply_edit("beam.pump.power_mW", 4.0)
+    edited = w.setup
+    qtbot.waitUntil(lambda: "injected failure" in w.message.text, timeout=WAIT_MS)
+    assert "engine computation failed: RuntimeError" in w.message.text
+    assert "kept" in w.message.text
+    assert w.setup is edited and w.dirty and "•" in w.windowTitle()
+    qtbot.waitUntil(lambda: w.shown is not None and w.shown.generation == w.live.generation,
+                    timeout=WAIT_MS)  # the quick estimate of the failed request is shown ...
+    assert w.readouts.stage.text() == "computation failed"  # ... and says no result comes
+    assert "engine run failed" in w.readouts.detail.text()
+    assert not w.export_result_action.isEnabled()
+
+    assert w.apply_edit("beam.pump.waist_mm", 1.5)  # the window still computes
+    shown = wait_engine(qtbot, w)
+    assert shown.result.setup.beam("pump").power == pytest.approx(4e-3)
+    assert shown.result.setup.beam("pump").waist == pytest.approx(1.5e-3)
+    expected = pumpsim.simulate(w.setup)
+    assert w.readouts.fraction.text() == f"{expected.transfer_fraction:.2%}"
+    assert w.readouts.stage.text() != "computation failed"
+    assert not w.message.isVisible()  # the failure no longer describes what is shown
+    assert w.dirty and w.export_result_action.isEnabled()

@@ -1,4 +1,5 @@
-"""``pumpsim scan SETUP --vary KEY=START:STOP:N[:log] ... --out FILE.h5``: grids to HDF5."""
+"""``pumpsim scan SETUP --vary KEY=START:STOP:N[:log] ... --out FILE.h5 [--resume]``:
+grids to HDF5, resumable after an interruption."""
 
 from dataclasses import replace
 from pathlib import Path
@@ -21,6 +22,10 @@ def add_parser(sub):
                    help="one axis of the grid, e.g. beam.pump.power_mW=1:100:21:log "
                         "(repeatable: one per dimension)")
     p.add_argument("--out", required=True, metavar="FILE.h5", help="HDF5 file to write")
+    p.add_argument("--resume", action="store_true",
+                   help="continue an interrupted scan of the same --out from the points it "
+                        "kept in FILE.h5.journal (same setup, --set and --vary); without it "
+                        "an unfinished scan there is started afresh")
     p.add_argument("--target-fraction", type=float, metavar="F",
                    help="draw the contour of this transfer fraction on the plot")
     add_plot_argument(p)
@@ -38,7 +43,8 @@ def handle(args):
 
         check_path(args.plot, setup.path)
     with executor_from_args(args, setup.path) as ex, progress(f"scan ({ex.describe()})") as bar:
-        result = scan(setup, axes, args.out, ex, bar, command_line())
+        result = scan(setup, axes, args.out, ex, bar, command_line(), resume=args.resume,
+                      note=lambda line: status("pumpsim: " + line))
     if args.plot:
         from ..plots import plot_scan
 
@@ -49,7 +55,9 @@ def handle(args):
             status("CAUTION: " + c)
     else:
         d = result.to_dict()
-        print(f"wrote {d['out']}: {' × '.join(map(str, d['shape']))} grid, {d['points']} points")
+        print(f"wrote {d['out']}: {' × '.join(map(str, d['shape']))} grid, {d['points']} points"
+              + (f" ({result.resumed} of them from the interrupted run)" if result.resumed
+                 else ""))
         for a in axes:
             print(f"  {a.key} ({a.unit or 'number'}, {a.spacing}): {a.values[0]:g} to "
                   f"{a.values[-1]:g} in {len(a.values)}")
