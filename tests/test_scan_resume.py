@@ -17,7 +17,8 @@ import pytest
 import pumpsim.scan as scan_mod
 from pumpsim.cli import main
 from pumpsim.executors import ProcessExecutor
-from pumpsim.scan import journal_path, parse_axes, partial_path, read_journal
+from pumpsim.scan import parse_axes, partial_path
+from pumpsim.scan_journal import journal_path, read_journal
 from sizing_fixtures import three_level
 
 # 8 x 2 = 16 points; with a beam 0.5 mm wide each takes ~0.1 s, the others ~0.02 s
