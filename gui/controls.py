@@ -107,6 +107,9 @@ class SetupPanel(QScrollArea):
                     label.setWordWrap(True)
                     group.addWidget(label)
                     self.caution_labels[b.name] = label
+        group = self._group(column, "States · levels or magnetic sublevels")
+        for f in fields_of("") + fields_of("field"):
+            self._add(group, setup, f, None)
         group = self._group(column, "Numerics")
         for f in fields_of("numerics"):
             self._add(group, setup, f, None)

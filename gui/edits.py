@@ -48,10 +48,11 @@ def switch_source_kind(setup, kind):
 
 
 def table_object(setup, table, beam=None):
-    """The SI dataclass a table's fields fill."""
+    """The SI dataclass a table's fields fill (the setup itself for the top level and
+    ``[field]``, whose values it holds)."""
     if table == "beam":
         return setup.beam(beam)
-    return {"source": setup.source, "numerics": setup.numerics}[table]
+    return {"source": setup.source, "numerics": setup.numerics, "": setup, "field": setup}[table]
 
 
 def document_table(setup, table, beam=None):
@@ -59,6 +60,8 @@ def document_table(setup, table, beam=None):
     doc = setup.document
     if table == "beam":
         return next(b for b in doc.get("beam", []) if b.get("name") == beam)
+    if table == "":
+        return doc
     return doc.get(table, {})
 
 
@@ -70,7 +73,9 @@ def field_state(setup, field, beam=None):
 
 def field_key(field, beam=None):
     """The ``--set`` key of a field."""
-    return f"beam.{beam}.{field.key}" if field.table == "beam" else f"{field.table}.{field.key}"
+    if field.table == "beam":
+        return f"beam.{beam}.{field.key}"
+    return f"{field.table}.{field.key}" if field.table else field.key
 
 
 def shown_fields(setup, fields):

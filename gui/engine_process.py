@@ -1,40 +1,58 @@
-"""The engine in a child process, so that a superseded run stops at once.
+"""The engine in a child process, so that a superseded run stops promptly.
 
-:func:`pumpsim.simulate` can only be asked to stop between its refinement
-rounds, which on the demo are seconds apart. Run in a child process, a stale
-run is simply ended (and a fresh process started for the next request);
-the window's own process also keeps its interpreter free for drawing and
-for quick estimates while the engine works. Results are the engine's own,
-pickled across unchanged.
+The child stays warm between requests: the engine is imported once. A run
+made stale by a newer request is asked to stop at its next refinement round
+(the engine calls its ``progress`` callback between rounds, and the child's
+callback raises once the parent has flagged the run); the same child then
+takes the next request at once. Only a run that ignores the flag for
+``stop_grace`` seconds (one very long round) is ended by killing the child, a
+spare taking over. The window's own process also keeps its interpreter free
+for drawing and for quick estimates while the engine works. Results are the
+engine's own, pickled across unchanged.
 
 No Qt here: the child imports only this module and the engine.
 """
 
 import multiprocessing
 import threading
+import time
 
 import pumpsim
 
 from .evaluate import Superseded
 
 POLL_S = 0.02  # how often a waiting caller asks whether it was superseded
+STOP_GRACE_S = 0.5  # a flagged run that has not stopped by then is killed (rounds of the
+# demo at tolerance 1e-4 take up to a few tenths of a second)
 
 
 class EngineFailed(RuntimeError):
     """The engine raised (message from the child) or the child died."""
 
 
-def _serve(conn):
-    """Child: simulate each ``(setup, tolerance)`` received; answer ``(ok, result or message)``."""
+class _Stopped(Exception):
+    """Child side: the parent flagged the running job as stale."""
+
+
+def _serve(conn, stop):
+    """Child: simulate each ``(job, setup, tolerance)`` received; answer ``(ok, result or
+    message)``, ``ok`` None for a job stopped because ``stop.value`` named it."""
     while True:
         try:
-            setup, tolerance = conn.recv()
+            job, setup, tolerance = conn.recv()
         except (EOFError, OSError):  # the window went away
             return
+
+        def progress(_message, job=job):
+            if stop.value == job:
+                raise _Stopped
+
         try:
             if tolerance is not None:
                 setup = setup.with_value("numerics.tolerance", tolerance)
-            conn.send((True, pumpsim.simulate(setup)))
+            conn.send((True, pumpsim.simulate(setup, progress=progress)))
+        except _Stopped:
+            conn.send((None, "stopped"))
         except Exception as exc:  # reported in the window, as words
             conn.send((False, f"{type(exc).__name__}: {exc}"))
 
@@ -44,7 +62,9 @@ class _Child:
 
     def __init__(self, ctx):
         self.conn, theirs = ctx.Pipe()
-        self.proc = ctx.Process(target=_serve, args=(theirs,), daemon=True, name="pumpsim-engine")
+        self.stop = ctx.Value("q", 0, lock=False)  # the job to stop; one writer, one reader
+        self.proc = ctx.Process(target=_serve, args=(theirs, self.stop), daemon=True,
+                                name="pumpsim-engine")
         self.proc.start()
         theirs.close()
 
@@ -58,24 +78,28 @@ class _Child:
 class EngineProcess:
     """A child process serving :func:`pumpsim.simulate`, for one caller thread at a time.
 
-    Once a run has been ended, a second child waits ready: ending the next
-    superseded run then costs nothing, since the following request goes
-    straight to the spare while a new spare imports the engine in the
-    background (about a second). Windows whose runs are never ended never
-    start the spare.
+    Once a run has had to be killed, a second child waits ready: killing the
+    next one then costs nothing, since the following request goes straight
+    to the spare while a new spare imports the engine in the background
+    (about a second). Windows whose runs always stop when asked never start
+    the spare.
 
     Parameters
     ----------
     start : bool
         Start the children now rather than at the first :meth:`simulate`.
+    stop_grace : float
+        Seconds a run flagged stale may take to stop before its child is killed.
     """
 
-    def __init__(self, start=True):
+    def __init__(self, start=True, stop_grace=STOP_GRACE_S):
         self._ctx = multiprocessing.get_context("spawn")  # never fork a process running Qt
         self._lock = threading.Lock()
         self.closed = False
         self.child = self.spare = None
         self.replaced = 0
+        self.jobs = 0  # numbers the runs, so that a stop flag names one run only
+        self.stop_grace = stop_grace
         if start:
             self._ready()
 
@@ -110,14 +134,21 @@ class EngineProcess:
             raise Superseded("before start")
         self._ready()
         child = self.child
-        child.conn.send((setup, tolerance))
+        self.jobs += 1
+        child.conn.send((self.jobs, setup, tolerance))
+        kill_at = None  # set once the run is flagged stale
         while not child.conn.poll(POLL_S):
-            if superseded() or self.closed:
-                self._replace()
-                raise Superseded("stopped")
+            if self.closed:
+                raise Superseded("closed")
             if not child.proc.is_alive():
                 self._replace()
                 raise EngineFailed("the engine process stopped unexpectedly")
+            if kill_at is None and superseded():
+                child.stop.value = self.jobs
+                kill_at = time.perf_counter() + self.stop_grace
+            elif kill_at is not None and time.perf_counter() > kill_at:
+                self._replace()
+                raise Superseded("killed")
         try:
             ok, payload = child.conn.recv()
         except (EOFError, OSError):
@@ -125,6 +156,8 @@ class EngineProcess:
                 raise Superseded("closed") from None
             self._replace()
             raise EngineFailed("the engine process stopped unexpectedly") from None
+        if kill_at is not None or ok is None:  # stopped, or finished after being made stale
+            raise Superseded("stopped")
         if not ok:
             raise EngineFailed(payload)
         return payload

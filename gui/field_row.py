@@ -8,9 +8,12 @@ file-unit value, and the window decides.
 """
 
 import math
+import tomllib
 
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QComboBox, QGridLayout, QLabel, QLineEdit, QSlider, QWidget)
+
+from pumpsim.schema import SIMPLE
 
 SLIDER_STEPS = 1000
 LOG_DIGITS = 3  # a log slider proposes values with 3 significant digits
@@ -24,6 +27,8 @@ def format_value(field, value):
         return str(int(value))
     if field.kind is str:
         return value
+    if isinstance(value, list):  # a compound value such as reference_F = [F, F']
+        return "[" + ", ".join(f"{x:g}" for x in value) + "]"
     return f"{value:.6g}"
 
 
@@ -183,6 +188,14 @@ class FieldRow(QWidget):
         if not text:
             if self.is_set:
                 self.edited.emit(self.key, None)
+            return
+        if self.field.kind not in SIMPLE:  # compound: typed as its TOML value, e.g. [2, 3]
+            try:
+                value = tomllib.loads(f"value = {text}")["value"]
+            except tomllib.TOMLDecodeError:
+                self.show_error(f"'{text}' is not a value such as [2, 3]; nothing was changed.")
+                return
+            self.edited.emit(self.key, value)
             return
         try:
             number = float(text.replace("−", "-"))

@@ -1,6 +1,7 @@
 """Writing what the window shows: setups (TOML), results (HDF5), curves (CSV)
 and figures (PNG, SVG). No dialogs here; the window asks for the paths."""
 
+import contextlib
 import copy
 import csv
 import os
@@ -10,6 +11,7 @@ import pyqtgraph.exporters as exporters
 from PySide6.QtCore import QRect, QSize
 from PySide6.QtGui import QPainter
 from PySide6.QtSvg import QSvgGenerator
+from PySide6.QtWidgets import QGraphicsItem
 
 import pumpsim
 from pumpsim.h5out import write_result
@@ -66,6 +68,27 @@ def export_figure(widget, path):
     exporter (0.14.0) cannot parse the path data Qt 6.12 writes.
     """
     suffix = Path(path).suffix.lower()
+    with uncached(widget):
+        _export(widget, path, suffix)
+
+
+@contextlib.contextmanager
+def uncached(view):
+    """Items of a graphics view painted afresh for an export, not from their on-screen
+    pixmap caches (which would put screen-resolution bitmaps into a PNG at twice
+    the size, or into an SVG)."""
+    items = [i for i in view.scene().items() if i.cacheMode() != QGraphicsItem.NoCache]
+    modes = [i.cacheMode() for i in items]
+    for i in items:
+        i.setCacheMode(QGraphicsItem.NoCache)
+    try:
+        yield
+    finally:
+        for i, mode in zip(items, modes):
+            i.setCacheMode(mode)
+
+
+def _export(widget, path, suffix):
     if suffix == ".png":
         exporter = exporters.ImageExporter(widget.getPlotItem().scene())
         exporter.parameters()["width"] = int(widget.width() * PNG_SCALE)

@@ -7,8 +7,8 @@ from PySide6.QtWidgets import QFrame, QGridLayout, QHBoxLayout, QLabel, QVBoxLay
 
 from .profile_view import stage_text
 
-STAGE_WORDS = {"quick": "quick estimate", "engine": "converged", "unconverged": "not converged",
-               "waiting": "computing…"}
+STAGE_WORDS = {"quick": "quick estimate", "coarse": "converged to the coarse tolerance · refining",
+               "engine": "converged", "unconverged": "not converged", "waiting": "computing…"}
 COLUMNS = ("laser", "photons per atom", "deflection (mrad)", "peak intensity (mW/cm²)",
            "saturation parameter s₀")
 
@@ -38,6 +38,10 @@ class Readouts(QFrame):
         self.stage.setProperty("stage", "waiting")
         self.detail = _label("", "muted")
         self.detail.setWordWrap(True)
+        self.dark = _label("", "muted")  # sublevel mode: population stuck in dark sublevels
+        self.dark.setWordWrap(True)
+        self.dark.hide()
+        self.dark_fraction = None
         pill = QHBoxLayout()
         pill.addWidget(self.stage)
         pill.addStretch(1)
@@ -45,6 +49,7 @@ class Readouts(QFrame):
             left.addWidget(w)
         left.addLayout(pill)
         left.addWidget(self.detail)
+        left.addWidget(self.dark)
         outer.addLayout(left, 2)
         self.table = QGridLayout()
         self.table.setHorizontalSpacing(18)
@@ -63,9 +68,13 @@ class Readouts(QFrame):
         self.fraction.setText(f"{r.transfer_fraction:.2%}")
         self.fraction.setToolTip(f"{r.transfer_fraction:.6f}")
         n = r.numerics
-        kind = "quick" if live.stage == "quick" else ("engine" if n.converged else "unconverged")
-        self.set_stage(STAGE_WORDS[kind], kind)
+        kind = live.stage if live.stage == "quick" or n.converged else "unconverged"
+        words = STAGE_WORDS[kind]
+        if kind == "coarse":
+            words = f"converged to {n.tolerance:g} · refining"
+        self.set_stage(words, kind)
         self.detail.setText(stage_text(live) + (" · updating for your latest change…" if pending else ""))
+        self._show_dark(r)
         summary = r.beam_summary()
         if len(self.cells) != len(r.setup.beams):
             self._make_cells(len(r.setup.beams))
@@ -76,6 +85,17 @@ class Readouts(QFrame):
                       f"{s['saturation_parameter']:.3g}")
             for w, v in zip(row, values):
                 w.setText(v)
+
+    def _show_dark(self, r):
+        """The dark fraction of a sublevel-resolved result (docs/sublevel.md, "Results")."""
+        self.dark_fraction = None if r.sublevels is None else r.sublevels.dark_fraction
+        self.dark.setVisible(r.setup.mode == "sublevel")
+        if r.sublevels is None:
+            self.dark.setText("Dark sublevels: with the engine result…")
+            return
+        self.dark.setText(f"Dark sublevels (light hardly excites them; more power will not "
+                          f"move them) hold {self.dark_fraction:.2%} of the atoms")
+        self.dark.setToolTip(f"{self.dark_fraction:.6f}")
 
     def _make_cells(self, n_beams):
         for row in self.cells:

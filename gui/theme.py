@@ -114,6 +114,7 @@ QLabel#cardTitle {{ color: {muted}; }}
 QLabel#stage {{ border-radius: 9px; padding: 2px 10px; font-weight: 600; }}
 QLabel#stage[stage="quick"] {{ background: {caution_bg}; color: {caution_text}; }}
 QLabel#stage[stage="engine"] {{ background: {good}; color: {panel}; }}
+QLabel#stage[stage="coarse"] {{ background: {sunken}; color: {good}; border: 1px solid {good}; }}
 QLabel#stage[stage="unconverged"] {{ background: {error_bg}; color: {error_text}; }}
 QLabel#stage[stage="waiting"] {{ background: {sunken}; color: {muted}; }}
 QFrame#caution {{ background: {caution_bg}; border: 1px solid {caution_edge}; border-radius: 6px; }}

@@ -37,6 +37,7 @@ from .worker import Freshness, LiveCompute, StudyCompute
 
 STUDY_DELAY_MS = 400  # a visible study restarts once the setup has stood still this long
 DEFAULT_GOAL = 0.9
+STATUS_WORDS = {"quick": "Quick estimate", "coarse": "Engine (coarse tolerance)", "engine": "Engine"}
 
 
 class MainWindow(QMainWindow):
@@ -240,7 +241,7 @@ class MainWindow(QMainWindow):
         self.export_result_action.setEnabled(done)
         n = update.result.numerics
         self.statusBar().showMessage(
-            f"{'Engine' if update.stage == 'engine' else 'Quick estimate'}: computed in "
+            f"{STATUS_WORDS[update.stage]}: computed in "
             f"{n.seconds * 1e3:.0f} ms, on screen "
             f"{(time.perf_counter() - update.requested) * 1e3:.0f} ms after the change")
         self.displayed.emit(update)

@@ -8,8 +8,9 @@
   thread whether an arriving update may replace what is shown. Stale
   results never overwrite newer ones.
 * :class:`LiveCompute`: the live result of the setup being edited, streamed
-  in two stages on two lanes: the quick estimate at once, the engine's
-  converged result when it is ready.
+  in stages on two lanes: the quick estimate at once, then on the engine
+  lane the engine converged to a coarse tolerance and finally to the
+  setup's own.
 * :class:`StudyCompute`: one lane for the study views' sweeps.
 """
 
@@ -24,9 +25,13 @@ from PySide6.QtCore import QObject, QThread, Signal
 from .engine_process import EngineProcess
 from .evaluate import Superseded, quick_estimate
 
-STAGES = ("quick", "engine")  # in the order a request's results arrive and rank
-ENGINE_QUIET_S = 0.25  # the engine stage starts once a request has stood this long (a drag
-# sends moves far more often, so runs are rarely started only to be ended)
+STAGES = ("quick", "coarse", "engine")  # in the order a request's results arrive and rank
+COARSE_TOLERANCE = 1e-3  # the engine's first pass: at this tolerance its adaptive rules
+# start small (pumpsim.ensemble.starting_point); on the demo about a fifth of the 1e-4 run
+ENGINE_QUIET_S = 0.05  # the engine lane starts once a request has stood this long: longer
+# than the gap between moves of a drag (60 Hz, about 17 ms), short enough not to be felt;
+# a run a later move makes stale stops at its next refinement round (see EngineProcess)
+POLL_S = 0.005  # how often a waiting engine job asks whether it was superseded
 STOP_WAIT_MS = 10_000  # closing waits this long for a lane's current step to end
 
 
@@ -103,7 +108,8 @@ class Update:
     generation : int
         Request number (increases with every change of the setup).
     stage : str
-        ``"quick"`` or ``"engine"``.
+        ``"quick"``, ``"coarse"`` (the engine at :data:`COARSE_TOLERANCE`)
+        or ``"engine"`` (the engine at the setup's tolerance).
     result : Result
     requested : float
         ``time.perf_counter()`` when the change was requested.
@@ -134,7 +140,12 @@ class Freshness:
 
 
 class LiveCompute(QObject):
-    """Streams the quick estimate and then the engine result of every request.
+    """Streams the quick estimate and then the engine results of every request.
+
+    The engine runs twice when the setup asks for a tolerance below
+    :data:`COARSE_TOLERANCE`: first at that tolerance, a converged answer in a
+    fraction of the time, then at the setup's own, which is the result the
+    window calls converged and exports.
 
     Signals
     -------
@@ -147,7 +158,7 @@ class LiveCompute(QObject):
     quick : callable
         ``quick(setup) -> Result`` for the first stage.
     full : callable, optional
-        ``full(setup, superseded) -> Result`` for the second; may raise
+        ``full(setup, superseded) -> Result`` for the engine stages; may raise
         :class:`~pumpsim_gui.evaluate.Superseded`. Default: the engine in a
         child process (:class:`~pumpsim_gui.engine_process.EngineProcess`).
     """
@@ -171,28 +182,47 @@ class LiveCompute(QObject):
         """Compute ``setup``; returns its generation number."""
         self.generation += 1
         gen, t = self.generation, time.perf_counter()
-        self.quick_lane.submit(
-            lambda superseded: self._emit(gen, "quick", lambda: self.quick(setup), t))
-        self.engine_lane.submit(lambda superseded: self._engine(gen, setup, t, superseded))
+        quick_done = threading.Event()
+        self.quick_lane.submit(lambda superseded: self._quick(gen, setup, t, quick_done))
+        self.engine_lane.submit(
+            lambda superseded: self._engine(gen, setup, t, superseded, quick_done))
         return gen
 
-    def _engine(self, gen, setup, t, superseded):
-        if wait_quiet(ENGINE_QUIET_S, superseded):
-            self._emit(gen, "engine", lambda: self.full(setup, superseded), t)
+    def _quick(self, gen, setup, t, done):
+        try:
+            self._emit(gen, "quick", lambda: self.quick(setup), t)
+        finally:
+            done.set()
+
+    def _engine(self, gen, setup, t, superseded, quick_done):
+        # The quick estimate runs alone: on two cores the engine's threads would slow it
+        # several times over. If the quick job was dropped, so was this one (superseded).
+        while not quick_done.wait(POLL_S):
+            if superseded():
+                return
+        if not wait_quiet(ENGINE_QUIET_S - (time.perf_counter() - t), superseded):
+            return
+        if setup.numerics.tolerance < COARSE_TOLERANCE:
+            coarse = setup.with_value("numerics.tolerance", COARSE_TOLERANCE)
+            if not self._emit(gen, "coarse", lambda: self.full(coarse, superseded), t):
+                return
+        self._emit(gen, "engine", lambda: self.full(setup, superseded), t)
 
     def _emit(self, gen, stage, compute, t):
+        """Compute and send one stage; False if it was superseded or failed."""
         try:
             result = compute()
         except Superseded:
-            return
+            return False
         except Exception as exc:  # shown in the window; no traceback unless debugging
             _debug_trace()
             self.failed.emit(gen, f"{stage} computation failed: {type(exc).__name__}: {exc}")
-            return
+            return False
         # Emitted even if a newer request came meanwhile: while a slider is
         # dragged every quick result is soon outdated, yet showing it beats
         # showing nothing; Freshness keeps it from replacing anything newer.
         self.updated.emit(Update(gen, stage, result, t))
+        return True
 
     def stop(self):
         if self.engine is not None:

@@ -33,14 +33,16 @@ import pumpsim.cli  # noqa: E402
 from PySide6.QtWidgets import QLabel  # noqa: E402
 from pumpsim.demo import demo_setup_path  # noqa: E402
 from pumpsim.schema import fields_of  # noqa: E402
-from pumpsim_gui import studies, theme  # noqa: E402
+from pumpsim_gui import engine_process, studies, theme  # noqa: E402
 from pumpsim_gui.edits import field_key, shown_fields  # noqa: E402
-from pumpsim_gui.evaluate import quick_estimate  # noqa: E402
+from pumpsim_gui.evaluate import Superseded, quick_estimate  # noqa: E402
+from pumpsim_gui.profile_view import sublevel_name  # noqa: E402
 from pumpsim_gui.window import MainWindow  # noqa: E402
 from pumpsim_gui.worker import Freshness, LiveCompute, Update  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 SCHEME = (ROOT / "schemes" / "veridium.toml").as_posix()
+RB87 = (ROOT / "schemes" / "rb87.toml").as_posix()
 WAIT_MS = 60_000
 
 CHEAP = f"""
@@ -57,6 +59,30 @@ name = "pump"
 transition = ["g", "e2"]
 power_mW = 0.02
 waist_mm = 1.0
+
+[numerics]
+tolerance = 1e-3
+"""
+
+
+# Sublevel mode, still cheap: one speed, Rb-87 D1 light sigma+ on F=2 -> F'=2 (32 sublevels).
+SUBLEVEL = f"""
+scheme = "{RB87}"
+target = "5S1/2"
+mode = "sublevel"
+
+[source]
+kind = "monoenergetic"
+speed_m_s = 100.0
+initial = {{ "5S1/2" = 1.0 }}
+
+[[beam]]
+name = "pump"
+transition = ["5S1/2", "5P1/2"]
+power_mW = 0.05
+waist_mm = 1.0
+polarization = "sigma+"
+reference_F = [2, 2]
 
 [numerics]
 tolerance = 1e-3
@@ -108,7 +134,7 @@ def test_window_opens_on_the_demo_with_a_control_per_schema_field(open_window, q
     setup = pumpsim.load_setup(demo_setup_path())
     w = open_window(setup)
     expected = {"target"} | {field_key(f) for f in shown_fields(setup, fields_of("source"))}
-    expected |= {field_key(f) for f in fields_of("numerics")}
+    expected |= {field_key(f) for f in fields_of("numerics") + fields_of("") + fields_of("field")}
     expected |= {field_key(f, b.name) for b in setup.beams for f in fields_of("beam")}
     assert set(w.panel.rows) == expected  # every field, generated, none hand-listed
     for key, (row, field, _) in w.panel.rows.items():
@@ -119,7 +145,7 @@ def test_window_opens_on_the_demo_with_a_control_per_schema_field(open_window, q
     assert power.entry.text() == "30"
     qtbot.waitUntil(lambda: w.shown is not None, timeout=WAIT_MS)
     assert w.readouts.fraction.text().endswith("%")
-    assert "quick" in w.profile.plot.getPlotItem().titleLabel.text.lower() or w.shown.stage == "engine"
+    assert "quick" in w.profile.plot.getPlotItem().titleLabel.text.lower() or w.shown.stage != "quick"
     # the general laser caution is on show whenever powers are (IEC 60825-1 wording in pumpsim.safety)
     assert w.caution.isVisible() and "laser-safety program" in w.caution.label.text()
     assert "Class 3B" in w.panel.caution_labels["pump"].text()
@@ -167,7 +193,7 @@ def test_stale_results_never_overwrite_newer_ones(open_window, qtbot, cheap_path
 
     emitted = []
     live = LiveCompute(full=full)
-    live.updated.connect(lambda u: emitted.append(u.rank))
+    live.updated.connect(lambda u: emitted.append((u.generation, u.stage)))
     w = open_window(setup, live=live)
     # Edit only once the first engine run has begun: an edit during the quiet
     # wait before it would cancel it, and there would be no stale result.
@@ -175,9 +201,9 @@ def test_stale_results_never_overwrite_newer_ones(open_window, qtbot, cheap_path
     assert w.apply_edit("beam.pump.power_mW", 3.0)
     qtbot.waitUntil(lambda: w.shown.generation == 2, timeout=WAIT_MS)
     slow.set()
-    qtbot.waitUntil(lambda: (1, 1) in emitted and (2, 1) in emitted, timeout=WAIT_MS)
+    qtbot.waitUntil(lambda: (1, "engine") in emitted and (2, "engine") in emitted, timeout=WAIT_MS)
     shown = wait_engine(qtbot, w)
-    assert (1, 1) in emitted  # the stale engine result did arrive ...
+    assert (1, "engine") in emitted  # the stale engine result did arrive ...
     assert shown.generation == 2 and shown.result.setup.beam("pump").power == pytest.approx(3e-3)
     ranks = []
     w.displayed.connect(lambda u: ranks.append(u.rank))
@@ -193,6 +219,40 @@ def test_freshness_orders_by_request_then_stage():
     assert accepted == [True, True, True, False, False, True]
 
 
+def test_a_stale_engine_run_stops_without_ending_its_process(cheap_path):
+    """The child answers a job flagged stale with "stopped" at its first refinement round
+    and serves the next job; through EngineProcess a stale run never costs the process."""
+    import multiprocessing
+    import multiprocessing.sharedctypes
+
+    setup = pumpsim.load_setup(cheap_path)
+    ours, theirs = multiprocessing.Pipe()
+    stop = multiprocessing.sharedctypes.RawValue("q", 1)  # job 1 is stale before it starts
+    child = threading.Thread(target=engine_process._serve, args=(theirs, stop), daemon=True)
+    child.start()
+    ours.send((1, setup, None))
+    assert ours.recv() == (None, "stopped")
+    ours.send((2, setup, None))
+    ok, result = ours.recv()
+    assert ok and result.transfer_fraction == pumpsim.simulate(setup).transfer_fraction
+    ours.close()
+    child.join(WAIT_MS / 1000)
+
+    engine = engine_process.EngineProcess(stop_grace=WAIT_MS / 1000)  # never killed here
+    try:
+        asked = []
+        try:  # stale from the second look on; it may also finish first, which is fine too
+            engine.simulate(setup, lambda: asked.append(1) or len(asked) > 1)
+        except Superseded:
+            pass
+        pid = engine.child.proc.pid
+        again = engine.simulate(setup)
+        assert engine.child.proc.pid == pid and engine.replaced == 0
+        assert again.transfer_fraction == result.transfer_fraction
+    finally:
+        engine.close()
+
+
 def test_a_bad_value_shows_a_message_and_changes_nothing(open_window, qtbot, cheap_path):
     w = open_window(pumpsim.load_setup(cheap_path))
     before, generation = w.setup, w.live.generation
@@ -206,6 +266,52 @@ def test_a_bad_value_shows_a_message_and_changes_nothing(open_window, qtbot, che
     passes.entry.setText("2.5")
     passes.entry.editingFinished.emit()
     assert "whole number" in passes.error.text() and w.setup is before
+
+
+# -- sublevel mode ---------------------------------------------------------------------
+
+def test_sublevel_view_curves_sum_to_levels_and_dark_fraction_is_the_engines(
+        open_window, qtbot, tmp_path):
+    """Sublevel curves add up to their level's curve (a level's population is the sum
+    over its sublevels, docs/sublevel.md); sigma+ light on F=2 -> F'=2 cannot excite
+    |F=2, m_F=+2> (Delta m_F = +1 would need m_F' = 3 > F'; dipole selection rules, e.g.
+    D. A. Steck, Rubidium 87 D Line Data), so it is among the dark sublevels."""
+    path = tmp_path / "rb87_sublevels.toml"
+    path.write_text(SUBLEVEL, encoding="utf-8")
+    setup = pumpsim.load_setup(path)
+    w = open_window(setup)
+    for key in ("mode", "field.B_gauss", "beam.pump.polarization"):  # from the schema
+        assert key in w.panel.rows
+    assert w.panel.row("mode").choice.currentData() == "sublevel"
+    assert w.panel.row("beam.pump.reference_F").entry.text() == "[2, 2]"  # a pair, as in the file
+    shown = wait_engine(qtbot, w).result
+    view = w.profile
+    assert view.show_choice.isVisible() and view.show_choice.isEnabled()
+    assert not view.showing_sublevels
+    levels = np.array([item.getData()[1] for item in view.lines]).T
+    view.show_choice.setCurrentIndex(view.show_choice.findData("sublevels"))
+    qtbot.waitUntil(lambda: len(view.lines) == len(shown.sublevels.labels) + 1)
+    assert view.showing_sublevels
+    curves = np.array([item.getData()[1] for item in view.lines]).T
+    level_of = np.append(shown.sublevels.level_of, len(shown.levels) - 1)
+    for k in range(len(shown.levels)):
+        np.testing.assert_allclose(curves[:, level_of == k].sum(axis=1), levels[:, k],
+                                   rtol=0, atol=1e-12)
+    named = [item.name() for item in view.lines]
+    assert "|F=2, m_F=+2⟩ 5S1/2" in named
+    assert shown.sublevels.dark[shown.sublevels.labels.index("5S1/2 F=2 m=+2")]
+    engine = pumpsim.simulate(w.setup)  # the same setup, computed here
+    assert w.readouts.dark_fraction == pytest.approx(engine.sublevels.dark_fraction, abs=1e-12)
+    assert f"{engine.sublevels.dark_fraction:.2%}" in w.readouts.dark.text()
+    header, rows = view.curves()
+    assert "population_5S1/2 F=2 m=+2" in header and len(rows) == len(shown.z)
+    view.show_choice.setCurrentIndex(view.show_choice.findData("levels"))
+    assert len(view.lines) == len(shown.levels)
+
+
+def test_sublevel_names_read_as_kets():
+    assert sublevel_name("5P3/2 F=3 m=-3", "5P3/2") == "|F=3, m_F=-3⟩ 5P3/2"
+    assert sublevel_name("g m=+1/2", "g") == "|m_J=+1/2⟩ g"  # no hyperfine structure
 
 
 # -- the quick estimate against physics ------------------------------------------------
