@@ -29,6 +29,8 @@ def format_value(field, value):
         return value
     if isinstance(value, list):  # a compound value such as reference_F = [F, F']
         return "[" + ", ".join(f"{x:g}" for x in value) + "]"
+    if isinstance(value, dict):  # an inline table such as polarization = { linear_deg = 30 }
+        return "{ " + ", ".join(f"{k} = {x:g}" for k, x in value.items()) + " }"
     return f"{value:.6g}"
 
 
@@ -144,7 +146,7 @@ class FieldRow(QWidget):
         """Show ``value`` without emitting ``edited``."""
         self.value, self.is_set = value, is_set
         if self.choice is not None:
-            self.choice.setCurrentIndex(max(self.choice.findData(value), 0))
+            self._show_choice(value)
         if self.entry is not None:
             text = format_value(self.field, value)
             self.entry.setText(text if is_set else "")
@@ -155,6 +157,18 @@ class FieldRow(QWidget):
             self.slider.setRange(*self.scale.positions)
             self.slider.setValue(self.scale.to_position(value))
             self.slider.blockSignals(False)
+
+    def _show_choice(self, value):
+        """Select ``value``; a value outside the list (``{ linear_deg = 30 }``) is shown
+        as an entry of its own, kept only while it is the value."""
+        listed = len(self.field.choices)
+        while self.choice.count() > listed:
+            self.choice.removeItem(listed)
+        index = self.choice.findData(value) if isinstance(value, str) else -1
+        if index < 0 and isinstance(value, dict):
+            self.choice.addItem(format_value(self.field, value), value)
+            index = listed
+        self.choice.setCurrentIndex(max(index, 0))
 
     def show_error(self, message):
         self.error.setText(message)
@@ -210,3 +224,6 @@ class FieldRow(QWidget):
         value = self.choice.itemData(index)
         if value != self.value:
             self.edited.emit(self.key, value)
+        if index < len(self.field.choices):  # a listed value replaces an unlisted one
+            while self.choice.count() > len(self.field.choices):
+                self.choice.removeItem(len(self.field.choices))

@@ -199,7 +199,7 @@ def test_stale_results_never_overwrite_newer_ones(open_window, qtbot, cheap_path
     # wait before it would cancel it, and there would be no stale result.
     qtbot.waitUntil(started.is_set, timeout=WAIT_MS)
     assert w.apply_edit("beam.pump.power_mW", 3.0)
-    qtbot.waitUntil(lambda: w.shown.generation == 2, timeout=WAIT_MS)
+    qtbot.waitUntil(lambda: w.shown is not None and w.shown.generation == 2, timeout=WAIT_MS)
     slow.set()
     qtbot.waitUntil(lambda: (1, "engine") in emitted and (2, "engine") in emitted, timeout=WAIT_MS)
     shown = wait_engine(qtbot, w)
@@ -290,7 +290,7 @@ def test_sublevel_view_curves_sum_to_levels_and_dark_fraction_is_the_engines(
     assert not view.showing_sublevels
     levels = np.array([item.getData()[1] for item in view.lines]).T
     view.show_choice.setCurrentIndex(view.show_choice.findData("sublevels"))
-    qtbot.waitUntil(lambda: len(view.lines) == len(shown.sublevels.labels) + 1)
+    qtbot.waitUntil(lambda: len(view.lines) == len(shown.sublevels.labels) + 1, timeout=WAIT_MS)
     assert view.showing_sublevels
     curves = np.array([item.getData()[1] for item in view.lines]).T
     level_of = np.append(shown.sublevels.level_of, len(shown.levels) - 1)
@@ -307,6 +307,19 @@ def test_sublevel_view_curves_sum_to_levels_and_dark_fraction_is_the_engines(
     assert "population_5S1/2 F=2 m=+2" in header and len(rows) == len(shown.z)
     view.show_choice.setCurrentIndex(view.show_choice.findData("levels"))
     assert len(view.lines) == len(shown.levels)
+
+
+def test_linear_polarization_is_shown_as_its_own_entry(open_window, qtbot, tmp_path):
+    path = tmp_path / "linear.toml"
+    path.write_text(SUBLEVEL.replace('polarization = "sigma+"', "polarization = { linear_deg = 30 }"),
+                    encoding="utf-8")
+    w = open_window(pumpsim.load_setup(path))
+    choice = w.panel.row("beam.pump.polarization").choice
+    assert choice.currentText() == "{ linear_deg = 30 }"
+    choice.setCurrentIndex(choice.findData("pi"))
+    choice.activated.emit(choice.currentIndex())
+    assert w.setup.beam("pump").polarization.kind == "pi"
+    assert choice.findText("{ linear_deg = 30 }") < 0  # no longer the value: gone from the list
 
 
 def test_sublevel_names_read_as_kets():
