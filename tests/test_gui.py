@@ -39,6 +39,7 @@ from pumpsim_gui.evaluate import Superseded, quick_estimate  # noqa: E402
 from pumpsim_gui.profile_view import sublevel_name  # noqa: E402
 from pumpsim_gui.window import MainWindow  # noqa: E402
 from pumpsim_gui.worker import Freshness, LiveCompute, Update  # noqa: E402
+from sizing_fixtures import three_level  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 SCHEME = (ROOT / "schemes" / "veridium.toml").as_posix()
@@ -334,48 +335,7 @@ def test_quick_estimate_follows_weak_pumping_law(tmp_path):
     ``1 - exp(-b int R dt)`` with ``int R dt = sigma0 I0 w sqrt(pi/2) / (hbar omega v)``
     (standard rate-equation result, adiabatic elimination of the upper level;
     the law the engine is tested against too). Constants from scipy.constants."""
-    scheme = tmp_path / "three.toml"
-    scheme.write_text("""
-[species]
-name = "three-level test atom"
-mass_u = 40.0
-[[level]]
-id = "g"
-energy_cm = 0.0
-J = 0
-[[level]]
-id = "m"
-energy_cm = 1000.0
-J = 0
-[[level]]
-id = "e"
-energy_cm = 20000.0
-J = 1
-lifetime_s = 1.0e-8
-[[decay]]
-upper = "e"
-lower = "g"
-branching = 0.6
-[[decay]]
-upper = "e"
-lower = "m"
-branching = 0.4
-""", encoding="utf-8")
-    setup_file = tmp_path / "three_setup.toml"
-    setup_file.write_text("""
-scheme = "three.toml"
-target = "m"
-[source]
-kind = "monoenergetic"
-speed_m_s = 500.0
-initial = { g = 1.0 }
-[[beam]]
-name = "pump"
-transition = ["g", "e"]
-power_mW = 0.002
-waist_mm = 1.0
-""", encoding="utf-8")
-    setup = pumpsim.load_setup(setup_file)
+    setup = three_level(tmp_path, b_g=0.6, b_t=0.4, lifetime=1e-8, power=0.002, tol=1e-4)
     lam = 1e-2 / 20000.0  # m, from the energy difference
     gamma = 1e8  # 1/lifetime, the ground level is stable
     sigma0 = 3.0 * lam**2 / (2 * math.pi) * (0.6e8) / gamma  # g_k/g_i = 3, A of e -> g

@@ -2,7 +2,7 @@
 
 from ..routes import all_cautions, compare, route_curves
 from .common import add_setup_arguments, print_json, setup_from_args, status
-from .parallel import (add_executor_arguments, add_plot_argument, executor_from_args,
+from .parallel import (add_batch_arguments, check_plot_path, executor_from_args,
                        pick_beam, progress)
 
 DEFAULT_F = 0.5
@@ -20,18 +20,13 @@ def add_parser(sub):
                    help=f"transfer fraction to size each route for (default {DEFAULT_F})")
     p.add_argument("--routes", metavar="UPPER,...",
                    help="compare only these upper levels, e.g. e1,e3")
-    add_plot_argument(p)
-    add_executor_arguments(p)
-    p.set_defaults(handler=handle)
+    add_batch_arguments(p, handle)
 
 
 def handle(args):
     setup = setup_from_args(args)
     beam = pick_beam(setup, args.beam)
-    if args.plot:
-        from ..plots import check_path
-
-        check_path(args.plot, setup.path)
+    check_plot_path(args, setup)
     chosen = [x.strip() for x in args.routes.split(",") if x.strip()] if args.routes else None
     F = args.target_fraction
     with executor_from_args(args, setup.path) as ex, progress(f"compare ({ex.describe()})") as bar:

@@ -20,8 +20,19 @@ def add_executor_arguments(p):
                         "'pumpsim[dask]')")
 
 
-def add_plot_argument(p):
+def add_batch_arguments(p, handler):
+    """``--plot FILE`` and the executor options, and the subcommand's handler."""
     p.add_argument("--plot", metavar="FILE", help="also draw a figure: .png, .svg or .pdf")
+    add_executor_arguments(p)
+    p.set_defaults(handler=handler)
+
+
+def check_plot_path(args, setup):
+    """Refuse a ``--plot`` file the figure cannot be written to, before any work."""
+    if args.plot:
+        from ..plots import check_path
+
+        check_path(args.plot, setup.path)
 
 
 def executor_from_args(args, file=None):

@@ -6,7 +6,7 @@ from pathlib import Path
 
 from ..scan import parse_axes, scan
 from .common import add_setup_arguments, print_json, setup_from_args, status
-from .parallel import (add_executor_arguments, add_plot_argument, command_line,
+from .parallel import (add_batch_arguments, check_plot_path, command_line,
                        executor_from_args, progress)
 
 
@@ -28,9 +28,7 @@ def add_parser(sub):
                         "an unfinished scan there is started afresh")
     p.add_argument("--target-fraction", type=float, metavar="F",
                    help="draw the contour of this transfer fraction on the plot")
-    add_plot_argument(p)
-    add_executor_arguments(p)
-    p.set_defaults(handler=handle)
+    add_batch_arguments(p, handle)
 
 
 def handle(args):
@@ -38,10 +36,7 @@ def handle(args):
     if setup.text is None and setup.path:  # keep the file verbatim even after --set
         setup = replace(setup, text=Path(setup.path).read_text(encoding="utf-8"))
     axes = parse_axes(args.vary, setup)
-    if args.plot:
-        from ..plots import check_path
-
-        check_path(args.plot, setup.path)
+    check_plot_path(args, setup)
     with executor_from_args(args, setup.path) as ex, progress(f"scan ({ex.describe()})") as bar:
         result = scan(setup, axes, args.out, ex, bar, command_line(), resume=args.resume,
                       note=lambda line: status("pumpsim: " + line))

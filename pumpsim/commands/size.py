@@ -3,7 +3,7 @@
 from ..lines import line
 from ..sizing import size
 from .common import add_setup_arguments, print_json, setup_from_args, status
-from .parallel import (add_executor_arguments, add_plot_argument, executor_from_args,
+from .parallel import (add_batch_arguments, check_plot_path, executor_from_args,
                        parse_range, pick_beam, progress)
 
 
@@ -31,9 +31,7 @@ def add_parser(sub):
     p.add_argument("--power-range", metavar="MIN:MAX",
                    help="powers of the map, mW (default: least power / 10 to * 10, widened to "
                         "include the setup's power)")
-    add_plot_argument(p)
-    add_executor_arguments(p)
-    p.set_defaults(handler=handle)
+    add_batch_arguments(p, handle)
 
 
 def handle(args):
@@ -41,13 +39,9 @@ def handle(args):
 
     setup = setup_from_args(args)
     beam = pick_beam(setup, args.beam)
-    if args.plot:
-        from ..plots import check_path
-
-        check_path(args.plot, setup.path)
-        if args.map == 0:
-            raise InputError("--plot draws the map: give --map N with N >= 2", setup.path,
-                             "--map")
+    check_plot_path(args, setup)
+    if args.plot and args.map == 0:
+        raise InputError("--plot draws the map: give --map N with N >= 2", setup.path, "--map")
     ranges = {key: parse_range(getattr(args, attr), option, 1e-3, setup.path)
               for key, attr, option in (("along", "waist_range", "--waist-range"),
                                         ("across", "waist_across_range", "--waist-across-range"),
