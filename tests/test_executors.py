@@ -36,3 +36,36 @@ def test_serial_process_pool_and_dask_agree(tmp_path):
     for other in (pool, dask):
         assert np.array_equal(ref[0], other[0])
         assert ref[1:] == other[1:]
+
+
+POOL_AFTER_THREADS = """
+import pumpsim
+from pumpsim.executors import ProcessExecutor
+from pumpsim.scan import parse_axes, scan
+
+if __name__ == "__main__":
+    setup = pumpsim.load_setup({setup!r}).with_value("numerics.tolerance", 1e-2)
+    for _ in range(3):
+        pumpsim.simulate(setup)  # the engine's threads are running in this process now
+    axes = parse_axes(["beam.pump.power_mW=1:100:6:log"], setup)
+    with ProcessExecutor(2) as ex:
+        print(scan(setup, axes, {out!r}, ex).fraction.tolist())
+"""
+
+
+def test_process_pool_after_engine_threads_does_not_hang(tmp_path):
+    # A pool forked from a process whose threads hold locks deadlocks (POSIX fork
+    # copies only the calling thread; Python docs, multiprocessing "Contexts and start
+    # methods"): the pool must start its workers another way.
+    import subprocess
+    import sys
+
+    from pumpsim.demo import demo_setup_path
+
+    script = tmp_path / "pool_after_threads.py"
+    script.write_text(POOL_AFTER_THREADS.format(setup=str(demo_setup_path()),
+                                                out=str(tmp_path / "scan.h5")))
+    run = subprocess.run([sys.executable, str(script)], capture_output=True, text=True,
+                         timeout=120)
+    assert run.returncode == 0, run.stderr
+    assert len(eval(run.stdout)) == 6
