@@ -52,7 +52,7 @@ class SetupPanel(QScrollArea):
 
         ``except_key`` is the control the change came from: it already shows it.
         """
-        structure = (setup.scheme.path, setup.scheme.ids, setup.source.kind,
+        structure = (setup.scheme.path, setup.scheme.ids, setup.source.kind, setup.mode,
                      tuple((b.name, b.lower, b.upper) for b in setup.beams))
         if structure != self.structure:
             self.structure = structure
@@ -99,7 +99,7 @@ class SetupPanel(QScrollArea):
         for b in setup.beams:
             nm = line(scheme, b.lower, b.upper).wavelength * 1e9
             group = self._group(column, f"Laser “{b.name}” · {b.lower} → {b.upper} · {nm:.1f} nm")
-            for f in fields_of("beam"):
+            for f in shown_fields(setup, fields_of("beam")):
                 self._add(group, setup, f, b.name)
                 if f.key == POWER_KEY:
                     label = QLabel()
@@ -108,7 +108,7 @@ class SetupPanel(QScrollArea):
                     group.addWidget(label)
                     self.caution_labels[b.name] = label
         group = self._group(column, "States · levels or magnetic sublevels")
-        for f in fields_of("") + fields_of("field"):
+        for f in shown_fields(setup, fields_of("") + fields_of("field")):
             self._add(group, setup, f, None)
         group = self._group(column, "Numerics")
         for f in fields_of("numerics"):

@@ -78,7 +78,12 @@ def field_key(field, beam=None):
     return f"{field.table}.{field.key}" if field.table else field.key
 
 
+SUBLEVEL_ONLY = {("beam", "polarization"), ("field", "B_gauss")}  # level mode ignores them
+
+
 def shown_fields(setup, fields):
-    """The fields of a table worth a control for this setup (a source kind's unused keys are not)."""
+    """The fields of a table worth a control for this setup: not a source kind's unused
+    keys, nor in level mode the values only sublevel mode reads."""
     unused = UNUSED.get(setup.source.kind, ())
-    return [f for f in fields if not (f.table == "source" and f.key in unused)]
+    return [f for f in fields if not (f.table == "source" and f.key in unused)
+            and not (setup.mode == "level" and (f.table, f.key) in SUBLEVEL_ONLY)]

@@ -111,6 +111,7 @@ class FieldRow(QWidget):
         grid.setVerticalSpacing(1)
         label = QLabel(field.label[0].upper() + field.label[1:])
         label.setObjectName("fieldLabel")
+        label.setWordWrap(True)  # a long label wraps rather than widening the panel
         label.setToolTip(f"{key}" + (f"  [{field.unit}]" if field.unit else ""))
         grid.addWidget(label, 0, 0)
         if field.choices:

@@ -166,7 +166,7 @@ BEAM_FIELDS = (
     _f("beam", "polarization", "polarization", "", 1, "unpolarized",
        "polarization (to the field axis)", kind=Polarization, choices=POLARIZATIONS),
     _f("beam", "reference_F", "reference_F", "", 1, None,
-       "hyperfine component [F, F'] the detuning is measured from", kind=Component),
+       "detuning from hyperfine line [F, F']", kind=Component),
 )
 
 MODE_FIELDS = (
