@@ -157,3 +157,16 @@ def test_d2_cycling_without_repump_reports_the_lower_hyperfine_level_as_dark():
     assert rep.dark_fraction == pytest.approx(f1, abs=1e-12)
     assert 1e-4 < f1 < 0.9
     assert rep.populations()["5S1/2 F=2 m=+2"] > 0.05
+
+
+def test_sublevel_demo_pumps_most_atoms_into_the_stretched_state():
+    # The shipped sublevel demo: the same textbook pumping as above (Foot 2005; Happer
+    # 1972) at a weak power and a spread of speeds, so most but not all atoms arrive
+    # in |F=2, m=2>, and that is what the dark-sublevel report names.
+    path = Path(demo_setup_path()).parent / "rb87_optical_pumping.toml"
+    result = pumpsim.simulate(pumpsim.load_setup(path))
+    d = result.to_dict()
+    stretched = d["sublevel_populations"]["5S1/2 F=2 m=+2"]
+    assert 0.9 < stretched < 0.999 and result.numerics.converged
+    assert d["dark_sublevels"] == {"5S1/2 F=2 m=+2": pytest.approx(stretched)}
+    assert d["dark_fraction"] == pytest.approx(stretched)
