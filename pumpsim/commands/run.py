@@ -56,7 +56,8 @@ def summary(result):
              f"{'' if n.converged else ', NOT CONVERGED: see below'})", "",
              "final populations:"]
     for lid, p in result.final_populations.items():
-        lines.append(f"  {lid:<10} {p:10.6f}")
+        # a round-off undershoot (|p| ~ 1e-13) would print as "-0.000000"
+        lines.append(f"  {lid:<10} {abs(p) if abs(p) < 5e-7 else p:10.6f}")
     lines += ["", f"  {'beam':<10} {'line':<12} {'λ (nm)':>9} {'power (mW)':>11} "
               f"{'peak I (mW/cm²)':>16} {'s0':>8} {'photons/atom':>13} {'deflection (mrad)':>18}"]
     info = result.beam_summary()
