@@ -28,26 +28,34 @@ _BLOCK = 4  # Paterson-Stockmeyer block size
 
 
 _STARTS = tuple(range(0, DEGREE + 1, _BLOCK))
-# row b, column j: coefficient of Z**j in Paterson-Stockmeyer block b
-_BLOCK_COEF = np.array([[_COEF[b + j] if b + j <= DEGREE else 0.0 for j in range(_BLOCK)]
-                        for b in _STARTS])
+
+
+def _block(powers, b, m):
+    """``sum_j Z^j / (b + j)!`` for ``j < _BLOCK``, from ``powers = [Z, Z^2, ...]``.
+
+    Written as scaled sums rather than one coefficient matrix product: that
+    product is large enough for a threaded BLAS to spread over every core,
+    which on small stacks costs more in waiting than it saves."""
+    out = powers[0] * _COEF[b + 1]
+    for j in range(2, _BLOCK):
+        if b + j <= DEGREE:
+            out += powers[j - 1] * _COEF[b + j]
+    idx = np.arange(m)
+    out[:, idx, idx] += _COEF[b]
+    return out
 
 
 def _taylor(Z):
     """``sum_k Z^k / k!`` to DEGREE by Paterson-Stockmeyer."""
-    n, m, _ = Z.shape
-    powers = np.empty((_BLOCK - 1, n, m, m))
-    powers[0] = Z
-    for j in range(1, _BLOCK - 1):
-        np.matmul(powers[j - 1], Z, out=powers[j])
+    m = Z.shape[-1]
+    powers = [Z]
+    for _ in range(_BLOCK - 2):
+        powers.append(powers[-1] @ Z)
     top = powers[-1] @ Z
-    blocks = (_BLOCK_COEF[:, 1:] @ powers.reshape(_BLOCK - 1, -1)).reshape(-1, n, m, m)
-    idx = np.arange(m)
-    blocks[:, :, idx, idx] += _BLOCK_COEF[:, :1, None]
-    out = blocks[-1]
-    for b in blocks[-2::-1]:
+    out = _block(powers, _STARTS[-1], m)
+    for b in _STARTS[-2::-1]:
         out = out @ top
-        out += b
+        out += _block(powers, b, m)
     return out
 
 

@@ -59,6 +59,16 @@ def partition(problem):
     return np.nonzero(reached & gives)[0], np.nonzero(reached & ~gives)[0]
 
 
+def _combine(weights, pieces):
+    """``weights @ pieces`` as scaled sums: a threaded BLAS would spread this product
+    over every core and spend more in waiting than it saves on the engine's sizes."""
+    out = pieces[0] * weights[0]
+    for w, piece in zip(weights[1:], pieces[1:]):
+        if w:
+            out += piece * w
+    return out
+
+
 class ExponentialPropagator(Propagator):
     """Batched CF4 exponential integrator on a given grid (see module docstring)."""
 
@@ -91,11 +101,12 @@ class ExponentialPropagator(Propagator):
         for j, hj in enumerate(h):
             for w in weights:
                 wj = np.concatenate([[1.0], w[:, j]])
-                M[:, :r, :r] = ((wj * hj) @ TT).reshape(n, r, r)
+                M[:, :r, :r] = _combine(wj * hj, TT).reshape(n, r, r)
                 M[:, :r, r] = yT * hj
                 E = expm_stack(M)
                 if len(R):
-                    y[:, R] += np.einsum("nij,nj->ni", (wj @ RT).reshape(n, len(R), r), E[:, :r, r])
+                    y[:, R] += np.einsum("nij,nj->ni", _combine(wj, RT).reshape(n, len(R), r),
+                                         E[:, :r, r])
                 yT = np.einsum("nij,nj->ni", E[:, :r, :r], yT)
             if keep is not None:
                 drift = (yT[:, cT].sum(axis=1) + y[:, R][:, cR].sum(axis=1)) / total
