@@ -1,24 +1,31 @@
 """Flux-weighted means over speed, angle and offset, refined until converged.
 
-The work is split in three, each with its share of the user's tolerance:
+The reported error estimate is the sum of three parts, and refinement goes
+on until that sum is within the user's tolerance:
 
-1. the integration grid along z, refined (steps per waist doubled) on a few
-   probe atoms at the extremes of the ensemble until the final states stop
-   changing (``ODE_SHARE``);
-2. the angle and offset rules, doubled until the means stop changing
-   (``INNER_SHARE``);
-3. the speed panels, split where the Gauss-Kronrod difference is largest
-   until the summed estimate is below ``SPEED_SHARE``. Panel edges are put
-   at the speeds a beam crossing at an angle selects, so a narrow velocity
-   class cannot fall between nodes.
+1. the integration grid along z, refined first (steps per waist doubled) on
+   a few probe atoms at the extremes of the ensemble until their final states
+   change by less than ``ODE_SHARE`` of the tolerance;
+2. the angle and offset rules: each one's error is estimated by the change
+   its next, doubled rule makes;
+3. the speed panels: Gauss-Kronrod differences. Panel edges are put at the
+   speeds a beam crossing at an angle selects, so a narrow velocity class
+   cannot fall between nodes.
 
-Every evaluation integrates its nodes together in chunks of ``CHUNK``.
+Parts 2 and 3 start from the smallest rules and panels; while the sum is over
+the tolerance the largest of them is refined (see :class:`_Refinement`).
+So no part is refined further than the whole needs: a fixed share per part
+would make the default tolerance climb rules whose error is already small
+next to the rest.
+
+Every evaluation integrates its nodes together in chunks of ``CHUNK``, in
+one thread: the batched array operations are small enough that threads
+sharing them (measured on two cores) doubled the CPU time and gained no
+wall time. Parallel work belongs a level up, in the scan executors.
 """
 
 import math
-import os
 import time
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -27,41 +34,22 @@ from scipy import sparse
 from .quadrature import half_normal_rule, normal_rule, speed_panel
 from .sources import speeds_of
 
-ODE_SHARE, INNER_SHARE, SPEED_SHARE = 0.1, 0.2, 0.5
+ODE_SHARE = 0.1  # of the tolerance, for the grid: refined first, on probe atoms only
 CHUNK = 2048
 MAX_PER_WAIST = 1024
 # Doubling the grid of a method of order p shrinks its error 2**p times, so the error of the
 # finer grid is the change divided by 2**p - 1. The integrator is of order 4 on smooth
 # profiles but shows order 3 in strongly saturated wings; 2**3 - 1 is the safe divisor.
 GRID_ORDER_FACTOR = 7.0
-ANGLE_RULES, OFFSET_RULES = (3, 6, 12, 24, 48, 96), (2, 3, 6, 12, 24, 48)
-COARSE = 1e-3  # at this tolerance or looser, refinement starts from the smallest rules
-
-
-def starting_point(tolerance):
-    """Where refinement starts: steps per waist, first angle and offset rules (indices
-    into the ladders) and speed panels. Starting small makes coarse answers cheap;
-    starting one rung up saves a rung at the default tolerance, where it is always climbed."""
-    if tolerance >= COARSE:
-        return dict(per_waist=2, rung=0, panels=3)
-    return dict(per_waist=4, rung=1, panels=6)
+LADDERS = {"angle": (3, 6, 12, 24, 48, 96), "offset": (2, 3, 6, 12, 24, 48)}
+# Refinement starts from the smallest grid, rules and panels at every tolerance: each
+# step up is taken only while the summed error estimate asks for it.
+START_PER_WAIST, START_PANELS = 2, 3
 DEFLECTION_FLOOR = 1e-7  # rad; below this a deflection is judged absolutely
 # Speed panels are not split below this fraction of the speed support. Where the source
 # density stays finite at v = 0 the mean photon number and deflection of the slowest
 # atoms diverge (transit time 1/v), so bisection there would never end.
 NARROWEST_PANEL = 1e-6
-
-
-# numpy releases the GIL inside its array loops, so threads share the batched work
-WORKERS = max(1, min(4, os.cpu_count() or 1))
-_POOL = None
-
-
-def _pool():
-    global _POOL
-    if _POOL is None:
-        _POOL = ThreadPoolExecutor(WORKERS, thread_name_prefix="pumpsim")
-    return _POOL
 
 
 @dataclass
@@ -135,24 +123,15 @@ class EnsembleIntegrator:
         values = np.empty((n, self.n_levels + 2 * self.n_beams))
         profile = np.zeros((n_groups, len(z), self.n_levels))
         S = self.model.n_states
-        size = max(1, min(CHUNK, -(-n // WORKERS)))
-
-        def work(sl):
+        for lo in range(0, n, CHUNK):
+            sl = slice(lo, min(lo + CHUNK, n))
             problem = self.model.problem(v[sl], a[sl], y0[sl])
             m = sl.stop - sl.start
             reducer = sparse.csr_matrix((weight[sl], (groups[sl], np.arange(m))),
                                         shape=(n_groups, m))
             traj = self.propagator.propagate(problem, z, reducer)
             values[sl] = self._values(v[sl], traj.final)
-            return self.model.basis.to_levels(traj.reduced[..., :S]).transpose(1, 0, 2)
-
-        chunks = [slice(lo, min(lo + size, n)) for lo in range(0, n, size)]
-        if len(chunks) == 1 or not self.propagator.batched:
-            parts = map(work, chunks)
-        else:
-            parts = _pool().map(work, chunks)
-        for part in parts:
-            profile += part
+            profile += self.model.basis.to_levels(traj.reduced[..., :S]).transpose(1, 0, 2)
         self.evaluated += n
         return Evaluated(v, a, y0, weight, values, profile)
 
@@ -174,8 +153,8 @@ class EnsembleIntegrator:
         V, A = (x.ravel() for x in np.meshgrid(v, a))
         problem = self.model.problem(V, A, np.zeros_like(V))
         if not self.propagator.batched:
-            return starting_point(self.tol)["per_waist"], 0.0
-        per = starting_point(self.tol)["per_waist"]
+            return START_PER_WAIST, 0.0
+        per = START_PER_WAIST
         prev = self._values(V, self.propagator.propagate(problem, self.model.grid(per)).final)
         while True:
             fine = self._values(V, self.propagator.propagate(problem, self.model.grid(2 * per)).final)
@@ -190,7 +169,7 @@ class EnsembleIntegrator:
     def breakpoints(self):
         """Speed-panel edges: equal panels plus the velocity classes angled beams select."""
         lo, hi = self.speeds.support()
-        edges = list(np.linspace(lo, hi, starting_point(self.tol)["panels"] + 1))
+        edges = list(np.linspace(lo, hi, START_PANELS + 1))
         m = self.model
         for t, (i, sign) in enumerate(m.terms):
             b, ln = m.setup.beams[i], m.lines[i]
@@ -225,10 +204,12 @@ class EnsembleIntegrator:
         ``sizes`` stays within ``max_nodes``."""
         return self.evaluated + per_rule_node * sizes["angle"] * sizes["offset"] <= self.max_nodes
 
-    def inner_rule(self, n_angle, n_offset):
+    def inner_rule(self, sizes):
+        """Product rule over angle and offset with ``sizes["angle"]`` x ``sizes["offset"]``
+        nodes: ``(angles, offsets, weights)``."""
         src = self.model.setup.source
-        a, wa = normal_rule(n_angle, src.divergence_rms)
-        y, wy = half_normal_rule(n_offset, src.width_rms)
+        a, wa = normal_rule(sizes["angle"], src.divergence_rms)
+        y, wy = half_normal_rule(sizes["offset"], src.width_rms)
         A, Y = np.meshgrid(a, y, indexing="ij")
         return A.ravel(), Y.ravel(), np.outer(wa, wy).ravel()
 
@@ -269,66 +250,9 @@ class EnsembleIntegrator:
     def run(self) -> EnsembleAverage:
         t0 = time.perf_counter()
         per, ode_err = self.converge_grid()
-        z = self.model.grid(per)
-        src = self.model.setup.source
-        rung = starting_point(self.tol)["rung"]
-        sizes = {"angle": 1 if src.divergence_rms == 0 else ANGLE_RULES[rung],
-                 "offset": 1 if src.width_rms == 0 else OFFSET_RULES[rung]}
-        single = self.speeds.single_speed is not None
-        edges = [0, 0] if single else self.breakpoints()
-        panels = list(zip(edges[:-1], edges[1:]))
-        recs = self.run_panels(panels, self.inner_rule(sizes["angle"], sizes["offset"]), z)
-        inner_err = 0.0
-        start_sizes = dict(sizes)
-        current = sum(r["G"] for r in recs) if not single else recs[0]["K"]
-        within_budget = True
-        for dim, ladder in (("angle", ANGLE_RULES), ("offset", OFFSET_RULES)):
-            if sizes[dim] == 1:
-                continue
-            for step, nxt in enumerate(ladder[ladder.index(sizes[dim]) + 1:]):
-                trial = dict(sizes, **{dim: nxt})
-                # the trial's Gauss sum, then the Kronrod run of the rule it may become;
-                # the first trial always runs, as without it there is no error estimate
-                if step and not self.affordable(trial, 2 if single else 22 * len(panels)):
-                    within_budget = False
-                    break
-                value = self.gauss_total(panels, self.inner_rule(trial["angle"], trial["offset"]), z)
-                err = float(np.max(np.abs(value - current) / self.scale(value)))
-                self.progress(f"{dim} rule {sizes[dim]} -> {nxt} nodes: change {err:.2g}")
-                if err <= 0.5 * INNER_SHARE * self.tol:
-                    break
-                sizes, current = trial, value
-            inner_err += err
-        if sizes != start_sizes:
-            if self.affordable(sizes, 1 if single else 15 * len(panels)):
-                recs = self.run_panels(panels, self.inner_rule(sizes["angle"], sizes["offset"]), z)
-            else:  # keep the first rules' panels; the change measured says how far off
-                sizes, within_budget = start_sizes, False
-        rule = self.inner_rule(sizes["angle"], sizes["offset"])
-        converged = (within_budget and ode_err <= ODE_SHARE * self.tol
-                     and inner_err <= INNER_SHARE * self.tol)
-        speed_err = sum(r["err"] for r in recs)
-        narrowest = NARROWEST_PANEL * (edges[-1] - edges[0])
-        stuck_at = None
-        while speed_err > SPEED_SHARE * self.tol:
-            limit = SPEED_SHARE * self.tol / len(recs)
-            worst = max(r["err"] for r in recs)
-            split = [r for r in recs if (r["err"] > limit or r["err"] == worst)
-                     and r["hi"] - r["lo"] > narrowest]
-            if not split:  # the error sits in panels too narrow to split again
-                worst_rec = max(recs, key=lambda r: r["err"])
-                stuck_at = 0.5 * (worst_rec["lo"] + worst_rec["hi"])
-                converged = False
-                break
-            new_panels = [p for r in split for p in ((r["lo"], 0.5 * (r["lo"] + r["hi"])),
-                                                      (0.5 * (r["lo"] + r["hi"]), r["hi"]))]
-            if self.evaluated + len(new_panels) * 15 * len(rule[0]) > self.max_nodes:
-                converged = False
-                break
-            keep = [r for r in recs if not any(r is s for s in split)]
-            recs = sorted(keep + self.run_panels(new_panels, rule, z), key=lambda r: r["lo"])
-            speed_err = sum(r["err"] for r in recs)
-            self.progress(f"speeds: {len(recs)} panels, error estimate {speed_err:.2g}")
+        refine = _Refinement(self, self.model.grid(per), ode_err)
+        refine.run()
+        recs = refine.recs
         nodes = Evaluated(*(np.concatenate([getattr(r["ev"], f) for r in recs])
                             for f in ("v", "a", "y0", "weight", "values")), None)
         # Self-normalised: the rule's own weight sum (1 to quadrature accuracy, off by
@@ -338,9 +262,150 @@ class EnsembleIntegrator:
         nodes = replace(nodes, weight=nodes.weight / total_weight)
         values = sum(r["K"] for r in recs) / total_weight
         profile = sum(r["profile"] for r in recs) / total_weight
-        errors = {"ode": ode_err, "angle_offset": inner_err, "speed": speed_err,
-                  "total": ode_err + inner_err + speed_err}
-        return EnsembleAverage(values, profile, z, nodes, per, errors, self.evaluated,
-                               converged and speed_err <= SPEED_SHARE * self.tol,
-                               dict(sizes, speed_panels=len(recs), unresolved_speed=stuck_at),
+        errors = refine.errors()
+        return EnsembleAverage(values, profile, refine.z, nodes, per, errors, self.evaluated,
+                               errors["total"] <= self.tol,
+                               dict(refine.used, speed_panels=len(recs),
+                                    unresolved_speed=refine.stuck_at),
                                time.perf_counter() - t0)
+
+
+class _Refinement:
+    """Steps 2 and 3 of :class:`EnsembleIntegrator` on a fixed grid.
+
+    The reported error is the sum of three estimates: the grid's, the angle and
+    offset rules' (for each, the change its next rule makes) and the speed
+    panels' (Gauss-Kronrod differences). While the sum exceeds the tolerance
+    the largest part is refined: an inner rule climbs its ladder (a cheap
+    Gauss-node sum; the panels are rerun with the new rules only when the speed
+    part is next in line or at the end), or the speed panels with the largest
+    differences are halved.
+    """
+
+    def __init__(self, ens, z, ode_err):
+        self.ens, self.z, self.ode_err = ens, z, ode_err
+        src = ens.model.setup.source
+        self.single = ens.speeds.single_speed is not None
+        spread = {"angle": src.divergence_rms, "offset": src.width_rms}
+        self.sizes = {d: 1 if spread[d] == 0 else LADDERS[d][0] for d in LADDERS}
+        self.dims = [d for d in LADDERS if self.sizes[d] > 1]
+        edges = [0, 0] if self.single else ens.breakpoints()
+        self.recs = ens.run_panels(list(zip(edges[:-1], edges[1:])), ens.inner_rule(self.sizes), z)
+        self.used = dict(self.sizes)  # the rules self.recs were run with
+        self.version = 0  # counts speed-panel splits; totals are cached per version
+        self.totals = {self._key(self.sizes): self._recs_total()}
+        self.change = {d: {} for d in self.dims}  # dim -> {size: change to its next rule}
+        self.frozen = set()  # dims whose ladder or node budget is spent
+        self.stuck_at = None
+        for d in self.dims:  # the first trial always runs: without it there is no estimate
+            self._trial(d, always=True)
+
+    # -- bookkeeping --------------------------------------------------------
+    def _key(self, sizes):
+        return sizes["angle"], sizes["offset"], self.version
+
+    def _recs_total(self):
+        return self.recs[0]["K"] if self.single else sum(r["G"] for r in self.recs)
+
+    def _total(self, sizes):
+        """Gauss-node mean under inner rule ``sizes`` on the current panels (cached)."""
+        key = self._key(sizes)
+        if key not in self.totals:
+            panels = [(r["lo"], r["hi"]) for r in self.recs]
+            self.totals[key] = self.ens.gauss_total(panels, self.ens.inner_rule(sizes), self.z)
+        return self.totals[key]
+
+    def inner_error(self, sizes):
+        return sum(self.change[d][sizes[d]] for d in self.dims)
+
+    def speed_error(self):
+        return sum(r["err"] for r in self.recs)
+
+    def errors(self):
+        inner = self.inner_error(self.used)
+        speed = self.speed_error()
+        return {"ode": self.ode_err, "angle_offset": inner, "speed": speed,
+                "total": self.ode_err + inner + speed}
+
+    # -- refinement steps -----------------------------------------------------
+    def _trial(self, d, always=False):
+        """Estimate the error of dim ``d``'s current rule by the change to its next one.
+        Returns False (and freezes ``d``) when there is no next rule or no budget."""
+        ladder, size = LADDERS[d], self.sizes[d]
+        if size == ladder[-1]:
+            self.frozen.add(d)
+            return False
+        trial = dict(self.sizes, **{d: ladder[ladder.index(size) + 1]})
+        # the trial's Gauss sum, then the Kronrod run of the rule it may become
+        if not always and not self.ens.affordable(trial, 2 if self.single else 22 * len(self.recs)):
+            self.frozen.add(d)
+            return False
+        value, fine = self._total(self.sizes), self._total(trial)
+        err = float(np.max(np.abs(fine - value) / self.ens.scale(fine)))
+        self.change[d][size] = err
+        self.ens.progress(f"{d} rule {size} -> {trial[d]} nodes: change {err:.2g}")
+        return True
+
+    def _climb(self, d):
+        ladder = LADDERS[d]
+        before = self.sizes[d]
+        self.sizes[d] = ladder[ladder.index(before) + 1]
+        if not self._trial(d):
+            self.sizes[d] = before
+
+    def _rerun(self):
+        """Run the panels with the rules climbed to; False if that is over budget."""
+        per_node = 1 if self.single else 15 * len(self.recs)
+        if not self.ens.affordable(self.sizes, per_node):
+            self.sizes = dict(self.used)
+            self.frozen.update(self.dims)
+            return False
+        panels = [(r["lo"], r["hi"]) for r in self.recs]
+        self.recs = self.ens.run_panels(panels, self.ens.inner_rule(self.sizes), self.z)
+        self.used = dict(self.sizes)
+        self.totals[self._key(self.sizes)] = self._recs_total()
+        return True
+
+    def _split(self, budget):
+        """Halve the panels whose Gauss-Kronrod difference is largest; False when none
+        can be (too narrow, over budget, or no budget left for the speed part)."""
+        recs, ens = self.recs, self.ens
+        if budget <= 0:
+            return False
+        limit = budget / len(recs)
+        worst = max(r["err"] for r in recs)
+        narrowest = NARROWEST_PANEL * (recs[-1]["hi"] - recs[0]["lo"])
+        split = [r for r in recs if (r["err"] > limit or r["err"] == worst)
+                 and r["hi"] - r["lo"] > narrowest]
+        if not split:  # the error sits in panels too narrow to split again
+            worst_rec = max(recs, key=lambda r: r["err"])
+            self.stuck_at = 0.5 * (worst_rec["lo"] + worst_rec["hi"])
+            return False
+        new_panels = [p for r in split for p in ((r["lo"], 0.5 * (r["lo"] + r["hi"])),
+                                                  (0.5 * (r["lo"] + r["hi"]), r["hi"]))]
+        rule = ens.inner_rule(self.used)
+        if ens.evaluated + len(new_panels) * 15 * len(rule[0]) > ens.max_nodes:
+            return False
+        keep = [r for r in recs if not any(r is s for s in split)]
+        self.recs = sorted(keep + ens.run_panels(new_panels, rule, self.z), key=lambda r: r["lo"])
+        self.version += 1
+        self.totals[self._key(self.used)] = self._recs_total()
+        ens.progress(f"speeds: {len(self.recs)} panels, error estimate {self.speed_error():.2g}")
+        return True
+
+    def run(self):
+        tol = self.ens.tol
+        while True:
+            inner, speed = self.inner_error(self.sizes), self.speed_error()
+            if self.ode_err + inner + speed <= tol:
+                if self.sizes == self.used or not self._rerun():
+                    return
+                continue
+            open_dims = [d for d in self.dims if d not in self.frozen]
+            worst = max(open_dims, key=lambda d: self.change[d][self.sizes[d]], default=None)
+            if worst is not None and self.change[worst][self.sizes[worst]] > speed:
+                self._climb(worst)
+            elif self.sizes != self.used:
+                self._rerun()
+            elif not self._split(tol - self.ode_err - inner):
+                return

@@ -46,17 +46,18 @@ from pumpsim.scan import parse_axes, scan
 if __name__ == "__main__":
     setup = pumpsim.load_setup({setup!r}).with_value("numerics.tolerance", 1e-2)
     for _ in range(3):
-        pumpsim.simulate(setup)  # the engine's threads are running in this process now
+        pumpsim.simulate(setup)  # BLAS's threads are running in this process now
     axes = parse_axes(["beam.pump.power_mW=1:100:6:log"], setup)
     with ProcessExecutor(2) as ex:
         print(scan(setup, axes, {out!r}, ex).fraction.tolist())
 """
 
 
-def test_process_pool_after_engine_threads_does_not_hang(tmp_path):
+def test_process_pool_after_threads_does_not_hang(tmp_path):
     # A pool forked from a process whose threads hold locks deadlocks (POSIX fork
     # copies only the calling thread; Python docs, multiprocessing "Contexts and start
-    # methods"): the pool must start its workers another way.
+    # methods"). BLAS starts threads, and so does the window: the pool must start its
+    # workers another way.
     import subprocess
     import sys
 
