@@ -276,10 +276,14 @@ class _Refinement:
     The reported error is the sum of three estimates: the grid's, the angle and
     offset rules' (for each, the change its next rule makes) and the speed
     panels' (Gauss-Kronrod differences). While the sum exceeds the tolerance
-    the largest part is refined: an inner rule climbs its ladder (a cheap
-    Gauss-node sum; the panels are rerun with the new rules only when the speed
-    part is next in line or at the end), or the speed panels with the largest
-    differences are halved.
+    the largest part is refined: an inner rule climbs its ladder, or the speed
+    panels with the largest differences are halved.
+
+    Rules are compared on the first speed panels' Gauss nodes only, whatever
+    the panels have become since: a cheap sum whose speed error is the same
+    for both rules compared, so that it cancels in their change. The panels
+    are rerun with climbed rules only when the speed part is next in line, or
+    at the end.
     """
 
     def __init__(self, ens, z, ode_err):
@@ -292,8 +296,9 @@ class _Refinement:
         edges = [0, 0] if self.single else ens.breakpoints()
         self.recs = ens.run_panels(list(zip(edges[:-1], edges[1:])), ens.inner_rule(self.sizes), z)
         self.used = dict(self.sizes)  # the rules self.recs were run with
-        self.version = 0  # counts speed-panel splits; totals are cached per version
-        self.totals = {self._key(self.sizes): self._recs_total()}
+        self.trial_panels = [(r["lo"], r["hi"]) for r in self.recs]
+        total = self.recs[0]["K"] if self.single else sum(r["G"] for r in self.recs)
+        self.totals = {self._key(self.sizes): total}  # Gauss means on trial_panels
         self.change = {d: {} for d in self.dims}  # dim -> {size: change to its next rule}
         self.frozen = set()  # dims whose ladder or node budget is spent
         self.stuck_at = None
@@ -301,18 +306,16 @@ class _Refinement:
             self._trial(d, always=True)
 
     # -- bookkeeping --------------------------------------------------------
-    def _key(self, sizes):
-        return sizes["angle"], sizes["offset"], self.version
-
-    def _recs_total(self):
-        return self.recs[0]["K"] if self.single else sum(r["G"] for r in self.recs)
+    @staticmethod
+    def _key(sizes):
+        return sizes["angle"], sizes["offset"]
 
     def _total(self, sizes):
-        """Gauss-node mean under inner rule ``sizes`` on the current panels (cached)."""
+        """Gauss-node mean under inner rule ``sizes`` on the trial panels (cached)."""
         key = self._key(sizes)
         if key not in self.totals:
-            panels = [(r["lo"], r["hi"]) for r in self.recs]
-            self.totals[key] = self.ens.gauss_total(panels, self.ens.inner_rule(sizes), self.z)
+            rule = self.ens.inner_rule(sizes)
+            self.totals[key] = self.ens.gauss_total(self.trial_panels, rule, self.z)
         return self.totals[key]
 
     def inner_error(self, sizes):
@@ -337,7 +340,8 @@ class _Refinement:
             return False
         trial = dict(self.sizes, **{d: ladder[ladder.index(size) + 1]})
         # the trial's Gauss sum, then the Kronrod run of the rule it may become
-        if not always and not self.ens.affordable(trial, 2 if self.single else 22 * len(self.recs)):
+        per_node = 2 if self.single else 7 * len(self.trial_panels) + 15 * len(self.recs)
+        if not always and not self.ens.affordable(trial, per_node):
             self.frozen.add(d)
             return False
         value, fine = self._total(self.sizes), self._total(trial)
@@ -363,7 +367,6 @@ class _Refinement:
         panels = [(r["lo"], r["hi"]) for r in self.recs]
         self.recs = self.ens.run_panels(panels, self.ens.inner_rule(self.sizes), self.z)
         self.used = dict(self.sizes)
-        self.totals[self._key(self.sizes)] = self._recs_total()
         return True
 
     def _split(self, budget):
@@ -388,8 +391,6 @@ class _Refinement:
             return False
         keep = [r for r in recs if not any(r is s for s in split)]
         self.recs = sorted(keep + ens.run_panels(new_panels, rule, self.z), key=lambda r: r["lo"])
-        self.version += 1
-        self.totals[self._key(self.used)] = self._recs_total()
         ens.progress(f"speeds: {len(self.recs)} panels, error estimate {self.speed_error():.2g}")
         return True
 

@@ -170,3 +170,19 @@ def test_default_tolerance_is_within_1e4_of_a_tight_run(tmp_path, name):
     actual = max(abs(default.final_populations[k] - p)
                  for k, p in reference.final_populations.items())
     assert actual <= 10 * default.numerics.error_estimate["total"] + 1e-6
+
+
+def test_demo_at_default_tolerance_is_within_1e4_of_a_tight_run():
+    # The engine stops refining once its summed error estimate is within the tolerance;
+    # the answer must still be that close to a run at a tolerance ten times tighter.
+    from pumpsim.demo import demo_setup_path
+
+    setup = pumpsim.load_setup(demo_setup_path())
+    default = pumpsim.simulate(setup)
+    reference = pumpsim.simulate(setup.with_value("numerics.tolerance", 1e-5))
+    assert default.numerics.converged and reference.numerics.converged
+    assert default.numerics.error_estimate["total"] <= 1e-4
+    for lid, p in reference.final_populations.items():
+        assert default.final_populations[lid] == pytest.approx(p, abs=1e-4), lid
+    for name, n in reference.photons_per_atom.items():
+        assert default.photons_per_atom[name] == pytest.approx(n, rel=1e-4), name
