@@ -8,7 +8,9 @@ slider's own valueChanged path) and times, from the move:
 
 * first update: the quick estimate handed to the views (target 50 ms), and
   painted: the window's next repaint after it done as well;
-* coarse: the engine's result at the coarse tolerance (1e-3) on screen;
+* coarse: the engine's result at the coarse tolerance (1e-3) on screen, when
+  the window takes that pass (only after a run at the setup's tolerance took
+  over a second; not on the demo);
 * converged: the engine's result at the setup's tolerance on screen (target 1 s);
 
 for single moves made after the window has sat for ``--pause`` seconds (as a

@@ -9,8 +9,8 @@
   results never overwrite newer ones.
 * :class:`LiveCompute`: the live result of the setup being edited, streamed
   in stages on two lanes: the quick estimate at once, then on the engine
-  lane the engine converged to a coarse tolerance and finally to the
-  setup's own.
+  lane the engine at the setup's own tolerance, preceded by a run at a
+  coarse tolerance when runs at the setup's own have proved slow.
 * :class:`StudyCompute`: one lane for the study views' sweeps.
 """
 
@@ -26,8 +26,11 @@ from .engine_process import EngineProcess
 from .evaluate import Superseded, quick_estimate
 
 STAGES = ("quick", "coarse", "engine")  # in the order a request's results arrive and rank
-COARSE_TOLERANCE = 1e-3  # the engine's first pass: at this tolerance its adaptive rules
-# start small (pumpsim.ensemble.starting_point); on the demo about a fifth of the 1e-4 run
+COARSE_TOLERANCE = 1e-3  # the engine's optional first pass
+COARSE_AFTER_S = 1.0  # ...taken only once a run at the setup's tolerance took longer than this:
+# the engine refines only as far as its summed error estimate asks, so for many setups
+# (the demo among them) a run at 1e-4 does little more work than one at 1e-3, and a
+# first pass would only delay the converged answer
 ENGINE_QUIET_S = 0.05  # the engine lane starts once a request has stood this long: longer
 # than the gap between moves of a drag (60 Hz, about 17 ms), short enough not to be felt;
 # a run a later move makes stale stops at its next refinement round (see EngineProcess)
@@ -143,9 +146,10 @@ class LiveCompute(QObject):
     """Streams the quick estimate and then the engine results of every request.
 
     The engine runs twice when the setup asks for a tolerance below
-    :data:`COARSE_TOLERANCE`: first at that tolerance, a converged answer in a
-    fraction of the time, then at the setup's own, which is the result the
-    window calls converged and exports.
+    :data:`COARSE_TOLERANCE` and the last run at the setup's own tolerance took
+    longer than :data:`COARSE_AFTER_S`: first at that tolerance, a converged
+    answer in a fraction of the time, then at the setup's own, which is the
+    result the window calls converged and exports.
 
     Signals
     -------
@@ -174,6 +178,7 @@ class LiveCompute(QObject):
             full = self.engine.simulate
         self.quick, self.full = quick, full
         self.generation = 0
+        self.last_engine_s = 0.0  # engine seconds of the last run at a setup's own tolerance
         self.quick_lane, self.engine_lane = Lane("quick"), Lane("engine")
         self.quick_lane.start()
         self.engine_lane.start()
@@ -202,27 +207,29 @@ class LiveCompute(QObject):
                 return
         if not wait_quiet(ENGINE_QUIET_S - (time.perf_counter() - t), superseded):
             return
-        if setup.numerics.tolerance < COARSE_TOLERANCE:
+        if setup.numerics.tolerance < COARSE_TOLERANCE and self.last_engine_s > COARSE_AFTER_S:
             coarse = setup.with_value("numerics.tolerance", COARSE_TOLERANCE)
-            if not self._emit(gen, "coarse", lambda: self.full(coarse, superseded), t):
+            if self._emit(gen, "coarse", lambda: self.full(coarse, superseded), t) is None:
                 return
-        self._emit(gen, "engine", lambda: self.full(setup, superseded), t)
+        result = self._emit(gen, "engine", lambda: self.full(setup, superseded), t)
+        if result is not None:
+            self.last_engine_s = result.numerics.seconds
 
     def _emit(self, gen, stage, compute, t):
-        """Compute and send one stage; False if it was superseded or failed."""
+        """Compute and send one stage; its result, or None if it was superseded or failed."""
         try:
             result = compute()
         except Superseded:
-            return False
+            return None
         except Exception as exc:  # shown in the window; no traceback unless debugging
             _debug_trace()
             self.failed.emit(gen, f"{stage} computation failed: {type(exc).__name__}: {exc}")
-            return False
+            return None
         # Emitted even if a newer request came meanwhile: while a slider is
         # dragged every quick result is soon outdated, yet showing it beats
         # showing nothing; Freshness keeps it from replacing anything newer.
         self.updated.emit(Update(gen, stage, result, t))
-        return True
+        return result
 
     def stop(self):
         if self.engine is not None:

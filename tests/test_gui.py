@@ -38,7 +38,7 @@ from pumpsim_gui.edits import field_key, shown_fields  # noqa: E402
 from pumpsim_gui.evaluate import Superseded, quick_estimate  # noqa: E402
 from pumpsim_gui.profile_view import sublevel_name  # noqa: E402
 from pumpsim_gui.window import MainWindow  # noqa: E402
-from pumpsim_gui.worker import Freshness, LiveCompute, Update  # noqa: E402
+from pumpsim_gui.worker import COARSE_AFTER_S, Freshness, LiveCompute, Update  # noqa: E402
 from sizing_fixtures import three_level  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -181,6 +181,26 @@ def test_rapid_moves_coalesce_and_end_on_the_newest(open_window, qtbot, cheap_pa
     shown = wait_engine(qtbot, w)
     assert shown.result.setup.beam("pump").power == w.setup.beam("pump").power
     assert w.live.generation == 16
+
+
+def test_coarse_pass_runs_only_once_runs_have_proved_slow(qtbot, cheap_path):
+    """The engine's first pass at the coarse tolerance is taken only after a run at
+    the setup's own tolerance took over COARSE_AFTER_S; otherwise it would only delay
+    the converged answer (project design, no source)."""
+    setup = pumpsim.load_setup(cheap_path).with_value("numerics.tolerance", 1e-4)
+    stages = []
+    live = LiveCompute(full=lambda s, superseded: pumpsim.simulate(s))
+    live.updated.connect(lambda u: stages.append((u.generation, u.stage)))
+    try:
+        first = live.request(setup)
+        qtbot.waitUntil(lambda: live.last_engine_s > 0, timeout=WAIT_MS)
+        assert (first, "engine") in stages and (first, "coarse") not in stages
+        live.last_engine_s = COARSE_AFTER_S + 1.0  # as if that run had been slow
+        second = live.request(setup)
+        qtbot.waitUntil(lambda: (second, "engine") in stages, timeout=WAIT_MS)
+        assert stages.index((second, "coarse")) < stages.index((second, "engine"))
+    finally:
+        live.stop()
 
 
 def test_stale_results_never_overwrite_newer_ones(open_window, qtbot, cheap_path):
