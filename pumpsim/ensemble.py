@@ -319,7 +319,7 @@ class _Refinement:
         return self.totals[key]
 
     def inner_error(self, sizes):
-        return sum(self.change[d][sizes[d]] for d in self.dims)
+        return float(sum(self.change[d][sizes[d]] for d in self.dims))
 
     def speed_error(self):
         return sum(r["err"] for r in self.recs)

@@ -174,7 +174,7 @@ def cli(*args):
 
 # -- 2. a run that cannot meet its tolerance says so, and by how much ------------------
 # An effusive beam (1000 K) under a weak, wide pump: at tolerance 1e-5 the speed
-# quadrature needs more than the 90 nodes of its first round, which
+# quadrature needs more than the 45 nodes of its first round, which
 # numerics.max_nodes = 1 forbids.
 NOT_CONVERGED = dict(source=effusive(1000.0), power_mW=0.01, waist_mm=5.0, tolerance=1e-5,
                      extra_numerics={"max_nodes": 1})
