@@ -41,7 +41,7 @@ MAX_PER_WAIST = 1024
 # finer grid is the change divided by 2**p - 1. The integrator is of order 4 on smooth
 # profiles but shows order 3 in strongly saturated wings; 2**3 - 1 is the safe divisor.
 GRID_ORDER_FACTOR = 7.0
-LADDERS = {"angle": (3, 6, 12, 24, 48, 96), "offset": (2, 3, 6, 12, 24, 48)}
+LADDERS = {"angle": (3, 6, 12, 24, 48, 96), "offset": (2, 4, 8, 16, 32, 64)}
 # Refinement starts from the smallest grid, rules and panels at every tolerance: each
 # step up is taken only while the summed error estimate asks for it.
 START_PER_WAIST, START_PANELS = 2, 3
@@ -351,11 +351,18 @@ class _Refinement:
         return True
 
     def _climb(self, d):
+        """Move dim ``d`` one rung up; then measure the other dims' changes again at the
+        new rule, as a change measured beside a poor rule of ``d`` can be far off (an
+        offset change measured beside a 3-node angle rule was half the true one)."""
         ladder = LADDERS[d]
         before = self.sizes[d]
         self.sizes[d] = ladder[ladder.index(before) + 1]
         if not self._trial(d):
             self.sizes[d] = before
+            return
+        for other in self.dims:
+            if other != d and other not in self.frozen:
+                self._trial(other)
 
     def _rerun(self):
         """Run the panels with the rules climbed to; False if that is over budget."""
