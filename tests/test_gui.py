@@ -193,8 +193,11 @@ def test_coarse_pass_runs_only_once_runs_have_proved_slow(qtbot, cheap_path):
     live.updated.connect(lambda u: stages.append((u.generation, u.stage)))
     try:
         first = live.request(setup)
-        qtbot.waitUntil(lambda: live.last_engine_s > 0, timeout=WAIT_MS)
-        assert (first, "engine") in stages and (first, "coarse") not in stages
+        # Wait for both: the queued update reaches this thread in its own time, and
+        # the worker thread records last_engine_s only after emitting it.
+        qtbot.waitUntil(lambda: (first, "engine") in stages and live.last_engine_s > 0,
+                        timeout=WAIT_MS)
+        assert (first, "coarse") not in stages
         live.last_engine_s = COARSE_AFTER_S + 1.0  # as if that run had been slow
         second = live.request(setup)
         qtbot.waitUntil(lambda: (second, "engine") in stages, timeout=WAIT_MS)
