@@ -41,7 +41,7 @@ MAX_PER_WAIST = 1024
 # finer grid is the change divided by 2**p - 1. The integrator is of order 4 on smooth
 # profiles but shows order 3 in strongly saturated wings; 2**3 - 1 is the safe divisor.
 GRID_ORDER_FACTOR = 7.0
-LADDERS = {"angle": (3, 6, 12, 24, 48, 96), "offset": (2, 4, 8, 16, 32, 64)}
+LADDERS = {"angle": (3, 6, 12, 24, 48, 96), "offset": (2, 4, 8, 16, 32, 64, 128, 256)}
 # Refinement starts from the smallest grid, rules and panels at every tolerance: each
 # step up is taken only while the summed error estimate asks for it.
 START_PER_WAIST, START_PANELS = 2, 3

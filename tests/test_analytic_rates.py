@@ -80,6 +80,27 @@ def test_weak_pumping_three_level_transfer(tmp_path, b, x):
     assert result.final_populations["e"] < 1e-12  # decayed after the beam
 
 
+def test_source_wider_than_the_pump_beam(tmp_path):
+    """A monoenergetic source twice as wide (rms) as the pump's waist across, pumped
+    to b * int R = 8 on axis: the transfer against offset is flat near the axis and
+    drops where the pump weakens (a knee, which Gauss-Hermite offset rules converged
+    on only slowly). Reference: the weak-pumping law at each offset, averaged over
+    the normal offset distribution by scipy.integrate.quad."""
+    b, x0, v, w, wc, width = 0.5, 8.0, 10.0, 10e-3, 1e-3, 2e-3
+    P = weak_pump_power(b, x0, v, w, wc)  # peak R/G = 1.3e-5, as in the test above
+    setup = setup_doc("m", {"kind": "monoenergetic", "speed_m_s": v, "initial": {"g": 1.0},
+                            "width_rms_mm": width * 1e3},
+                      [beam("pump", "g", "e", P * 1e3, w * 1e3, waist_across_mm=wc * 1e3)],
+                      numerics={"tolerance": 1e-5})
+    result = pumpsim.simulate(pumpsim.load_setup(write_case(tmp_path, three_level(b, 1e-9), setup)))
+    density = lambda y: 2 * math.exp(-0.5 * (y / width) ** 2) / (math.sqrt(2 * math.pi) * width)
+    law = lambda y: 1 - math.exp(-x0 * math.exp(-2 * y * y / (wc * wc)))
+    want = integrate.quad(lambda y: density(y) * law(y), 0, np.inf, epsabs=1e-12, limit=200)[0]
+    assert result.numerics.converged
+    assert result.transfer_fraction == pytest.approx(want, abs=2e-5)
+    assert result.photons_per_atom["pump"] == pytest.approx(want / b, rel=1e-4)
+
+
 @pytest.mark.parametrize("angle_deg", [50.0, 135.0])
 def test_weak_pumping_at_an_angle_on_the_doppler_resonance(tmp_path, angle_deg):
     """Crossing at theta, tuned to v cos(theta)/lambda: the atom sees the line centre and
