@@ -409,6 +409,12 @@ class _Refinement:
                 if self.sizes == self.used or not self._rerun():
                     return
                 continue
+            # Rules that can climb no further and alone exceed the tolerance cannot
+            # be made up for by refining the rest: more work would only cost time.
+            if self.ode_err + sum(self.change[d][self.sizes[d]] for d in self.frozen) > tol:
+                if self.sizes == self.used or not self._rerun():
+                    return
+                continue
             open_dims = [d for d in self.dims if d not in self.frozen]
             worst = max(open_dims, key=lambda d: self.change[d][self.sizes[d]], default=None)
             if worst is not None and self.change[worst][self.sizes[worst]] > speed:

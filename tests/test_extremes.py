@@ -35,6 +35,7 @@ import scipy.constants as C
 from scipy.integrate import quad, solve_ivp
 
 import pumpsim
+from pumpsim import ensemble
 from pumpsim.cli import main
 from pumpsim.errors import NumericalError
 from pumpsim.tomlwrite import dumps
@@ -220,10 +221,29 @@ def test_max_nodes_bounds_the_angle_and_offset_rules_too(tmp_path):
     assert n.error_estimate["angle_offset"] > n.tolerance  # the estimate says how far off
 
 
+def test_a_spent_rule_ladder_stops_refinement_on_its_best_rule(tmp_path, monkeypatch):
+    # A saturated pump across a source twice its waist needs a large offset rule. Cut
+    # the offset ladder to (2, 4, 8): the 4-node rule is the last whose error can be
+    # measured, and its error alone exceeds the tolerance. Refinement must stop there
+    # rather than refine anything else (it could not help), and report that rule,
+    # with an estimate that a full run confirms (project design, no source).
+    src = {"kind": "monoenergetic", "speed_m_s": 500.0, "initial": {"g": 1.0},
+           "width_rms_mm": 2.0, "divergence_rms_mrad": 4.0}
+    setup = write_case(tmp_path, source=src, power_mW=20.0, tolerance=1e-4)
+    monkeypatch.setitem(ensemble.LADDERS, "offset", (2, 4, 8))
+    r = pumpsim.simulate(setup)
+    n = r.numerics
+    assert not n.converged and n.offset_nodes == 4
+    assert n.angle_nodes == ensemble.LADDERS["angle"][0]  # not refined in vain
+    assert n.error_estimate["angle_offset"] > n.tolerance
+    monkeypatch.undo()
+    good = pumpsim.simulate(setup)
+    assert good.numerics.converged
+    assert abs(r.transfer_fraction - good.transfer_fraction) <= n.error_estimate["total"]
+
+
 def test_non_finite_results_are_refused(tmp_path, monkeypatch):
     """If an integration overflows, simulate raises rather than report NaN."""
-    from pumpsim import ensemble
-
     real = ensemble.EnsembleIntegrator.run
 
     def poisoned(self):
