@@ -1,16 +1,16 @@
-"""Where the bundled demo lives (the project's ``demo_data/`` and ``schemes/``)."""
+"""Where the bundled demo lives: ``demo_data/`` and ``schemes/``, installed as package
+data (``pumpsim.demo_data``, ``pumpsim.schemes``) so that a wheel carries them."""
 
+from importlib import resources
 from pathlib import Path
 
 from .errors import InputError
 
-ROOT = Path(__file__).resolve().parent.parent
-
 
 def demo_setup_path() -> Path:
     """Path of the bundled demo setup."""
-    p = ROOT / "demo_data" / "demo_setup.toml"
+    p = Path(str(resources.files("pumpsim.demo_data") / "demo_setup.toml"))
     if not p.is_file():
-        raise InputError("the bundled demo is not here; install pumpsim from its source tree "
-                         "with 'pip install -e .'", file=str(p))
+        raise InputError("the bundled demo is missing from this installation; reinstall "
+                         "pumpsim", file=str(p))
     return p

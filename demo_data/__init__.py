@@ -1,0 +1,1 @@
+"""Demo setups (invented scenarios), installed as package data of pumpsim."""

@@ -1,0 +1,1 @@
+"""Level schemes, installed as package data of pumpsim."""
