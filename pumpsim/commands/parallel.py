@@ -1,10 +1,8 @@
 """Options shared by the commands that run many simulations: executor, ranges, plots."""
 
-import shlex
-import sys
-
 from ..errors import InputError
 from ..executors import make_executor
+from ..outpaths import check_output
 from ..progress import Progress
 
 
@@ -27,12 +25,16 @@ def add_batch_arguments(p, handler):
     p.set_defaults(handler=handler)
 
 
+PLOT_BYTES = 4 << 20  # room a figure may take on the disk
+
+
 def check_plot_path(args, setup):
     """Refuse a ``--plot`` file the figure cannot be written to, before any work."""
     if args.plot:
         from ..plots import check_path
 
         check_path(args.plot, setup.path)
+        check_output(args.plot, PLOT_BYTES, setup.path, "--plot")
 
 
 def executor_from_args(args, file=None):
@@ -72,8 +74,3 @@ def pick_beam(setup, name):
 def progress(label):
     """A progress bar on stderr for this command."""
     return Progress(label)
-
-
-def command_line():
-    """The command as typed, for storing with results."""
-    return "pumpsim " + " ".join(shlex.quote(a) for a in sys.argv[1:])

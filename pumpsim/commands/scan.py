@@ -4,10 +4,10 @@ grids to HDF5, resumable after an interruption."""
 from dataclasses import replace
 from pathlib import Path
 
-from ..scan import parse_axes, scan
-from .common import add_setup_arguments, print_json, setup_from_args, status
-from .parallel import (add_batch_arguments, check_plot_path, command_line,
-                       executor_from_args, progress)
+from ..outpaths import check_output
+from ..scan import disk_need, parse_axes, scan
+from .common import add_setup_arguments, command_line, print_json, setup_from_args, status
+from .parallel import add_batch_arguments, check_plot_path, executor_from_args, progress
 
 
 def add_parser(sub):
@@ -36,6 +36,7 @@ def handle(args):
     if setup.text is None and setup.path:  # keep the file verbatim even after --set
         setup = replace(setup, text=Path(setup.path).read_text(encoding="utf-8"))
     axes = parse_axes(args.vary, setup)
+    check_output(args.out, disk_need(setup, axes), setup.path)
     check_plot_path(args, setup)
     with executor_from_args(args, setup.path) as ex, progress(f"scan ({ex.describe()})") as bar:
         result = scan(setup, axes, args.out, ex, bar, command_line(), resume=args.resume,
