@@ -162,11 +162,12 @@ class OutputLock:
         while True:
             fd = os.open(self.path, os.O_RDWR | os.O_CREAT, 0o644)
             if not _try_lock(fd):
-                holder = os.read(fd, 4096).decode("utf-8", "replace").strip() or "unknown"
+                text = os.read(fd, 4096).decode("utf-8", "replace")
+                holder = text.partition("\n")[0].strip() or "unknown"
                 os.close(fd)
-                raise InputError(f"{self.out} is being written by another pumpsim ({holder}); "
-                                 "wait for it to end, or write to another file", self.file,
-                                 "--out")
+                raise InputError(f"{self.out} is being written by another pumpsim ({holder}; "
+                                 f"its command is in {self.path}); wait for it to end, or "
+                                 "write to another file", self.file, "--out")
             try:  # its last holder may have removed the file between our open and lock
                 if os.stat(self.path).st_ino == os.fstat(fd).st_ino:
                     break
@@ -175,8 +176,8 @@ class OutputLock:
             os.close(fd)
         started = datetime.datetime.now(datetime.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
         os.ftruncate(fd, 0)
-        os.write(fd, f"pid {os.getpid()} on {socket.gethostname()}, since {started}: "
-                     f"{self.command}".encode())
+        os.write(fd, f"pid {os.getpid()} on {socket.gethostname()}, since {started}\n"
+                     f"{self.command}\n".encode())
         self.fd = fd
         return self
 

@@ -418,15 +418,16 @@ def _scan(setup, axes, out, executor, progress, command, resume, note):
             points.put(r)
             if progress is not None:
                 progress.advance()
-    except BaseException as exc:
         journal.close()
+    except BaseException as exc:
+        with contextlib.suppress(OutputError):  # a full disk: the first error says it
+            journal.close()
         # a readable snapshot of the points done; the journal, not this, is resumed
         with contextlib.suppress(Exception):
             _snapshot(tmp, scan_bytes(setup, axes, points, command, created, resumed, False))
         if not isinstance(exc, InputError):
             note(kept(points, jpath))
         raise
-    journal.close()
     try:
         commit(out, scan_bytes(setup, axes, points, command, created, resumed, True),
                "the scan file")

@@ -21,6 +21,7 @@ import numpy as np
 
 from . import __version__
 from .errors import InputError
+from .outpaths import OutputError
 from .setup_file import setup_to_toml
 
 JOURNAL_FORMAT = 2  # first-line marker of a scan journal, raised if its layout changes
@@ -102,28 +103,44 @@ class Journal:
         only once they are on the disk)."""
         path = Path(path)
         tmp = path.with_name(path.name + ".new")
-        with open(tmp, "wb") as fh:
-            for obj in (header, *records):
-                fh.write(_line(obj))
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-        return cls(path, open(path, "ab"))
+        try:
+            with open(tmp, "wb") as fh:
+                for obj in (header, *records):
+                    fh.write(_line(obj))
+                fh.flush()
+                os.fsync(fh.fileno())
+            os.replace(tmp, path)
+            return cls(path, open(path, "ab"))
+        except OSError as exc:
+            tmp.unlink(missing_ok=True)
+            raise _failed(path, exc) from None
 
     def write(self, obj):
-        self.fh.write(_line(obj))
-        self.fh.flush()
+        try:
+            self.fh.write(_line(obj))
+            self.fh.flush()
+        except OSError as exc:
+            raise _failed(self.path, exc) from None
         if time.monotonic() - self.synced >= FSYNC_EVERY:
             self.sync()
 
     def sync(self):
-        os.fsync(self.fh.fileno())
+        try:
+            os.fsync(self.fh.fileno())
+        except OSError as exc:
+            raise _failed(self.path, exc) from None
         self.synced = time.monotonic()
 
     def close(self):
         if not self.fh.closed:
-            self.sync()
-            self.fh.close()
+            try:
+                self.sync()
+            finally:
+                self.fh.close()
+
+
+def _failed(path, exc):
+    return OutputError(f"could not write the scan journal {path}: {exc.strerror or exc}")
 
 
 def _line(obj) -> bytes:

@@ -1,5 +1,8 @@
 """Options shared by the commands that run many simulations: executor, ranges, plots."""
 
+import logging
+import os
+
 from ..errors import InputError
 from ..executors import make_executor
 from ..outpaths import check_output
@@ -41,7 +44,12 @@ def executor_from_args(args, file=None):
     """The executor the options ask for (``file``: the setup, for messages)."""
     if args.workers is not None and args.workers < 1:
         raise InputError(f"must be at least 1, got {args.workers}", file, "--workers")
-    return make_executor(args.workers, args.scheduler)
+    executor = make_executor(args.workers, args.scheduler)
+    if args.scheduler and not os.environ.get("PUMPSIM_DEBUG"):
+        # Dask logs its reconnection attempts with tracebacks; the executor reports a
+        # lost scheduler or lost workers itself, in one line
+        logging.getLogger("distributed").setLevel(logging.CRITICAL + 1)
+    return executor
 
 
 def parse_range(text, option, scale, file=None):

@@ -4,12 +4,12 @@ Every executor has the small ``concurrent.futures`` contract of :mod:`.base`;
 :func:`make_executor` picks one from the command-line choices.
 """
 
-from .base import Executor, imap_unordered, run_ordered
+from .base import Executor, ExecutorLost, imap_unordered, run_ordered
 from .cluster import DaskExecutor
 from .process import ProcessExecutor
 from .serial import SerialExecutor
 
-__all__ = ["Executor", "SerialExecutor", "ProcessExecutor", "DaskExecutor",
+__all__ = ["Executor", "ExecutorLost", "SerialExecutor", "ProcessExecutor", "DaskExecutor",
            "make_executor", "imap_unordered", "run_ordered"]
 
 
