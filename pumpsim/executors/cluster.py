@@ -27,14 +27,15 @@ class DaskExecutor(Executor):
     address : str or distributed.Client
         Scheduler address such as ``tcp://10.0.0.5:8786``, or a client
         already connected (which is then left open on :meth:`shutdown`).
-    no_workers_timeout : float
-        Seconds without any worker after which :meth:`check` gives up.
+    no_workers_timeout : float, optional
+        Seconds without any worker after which :meth:`check` gives up
+        (default :data:`NO_WORKERS_TIMEOUT`).
     """
 
     name = "dask"
 
-    def __init__(self, address, no_workers_timeout=NO_WORKERS_TIMEOUT):
-        self.no_workers_timeout = no_workers_timeout
+    def __init__(self, address, no_workers_timeout=None):
+        self.no_workers_timeout = no_workers_timeout or NO_WORKERS_TIMEOUT
         self._no_workers_since = None
         try:
             from distributed import Client
