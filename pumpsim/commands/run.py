@@ -4,6 +4,7 @@ from contextlib import nullcontext
 
 from ..lines import line
 from ..outpaths import OutputError, OutputLock, check_output
+from ..progress import RunProgress
 from ..safety import cautions
 from ..simulate import simulate
 from ..sublevel_report import sublevel_summary
@@ -27,7 +28,8 @@ def handle(args):
     if args.out:
         check_output(args.out, file_estimate(setup), setup.path)
     with OutputLock(args.out, command, setup.path) if args.out else nullcontext():
-        result = simulate(setup, progress=lambda m: status(f"  {m}"))
+        with RunProgress(setup.numerics.tolerance) as notes:
+            result = simulate(setup, progress=notes)
         failed = None
         if args.out:
             from ..h5out import write_result
