@@ -26,6 +26,7 @@ def test_run_progress_extrapolates_a_power_law_error_to_the_tolerance(monkeypatc
     notes("offset rule 2 -> 4 nodes: change 2.5e-4")
     assert out.getvalue().splitlines()[-1].endswith(f"[8s, about {clock(92)} left]")
     now[0] += 1
+    notes("offset rule 4 -> 8 nodes: change 1e-6")
     notes("grid: 32 steps per waist, error estimate 1e-6")  # within the tolerance now
     assert out.getvalue().splitlines()[-1].endswith("error estimate 1e-6  [9s]")
 
