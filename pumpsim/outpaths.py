@@ -18,6 +18,7 @@ lock when its holder ends in any way, so the lock of a killed process is
 simply taken over by the next one.
 """
 
+import contextlib
 import datetime
 import os
 import shutil
@@ -130,6 +131,19 @@ def commit(path, data, what="the file"):
         os.replace(tmp, path)
     except BaseException as exc:
         tmp.unlink(missing_ok=True)
+        if isinstance(exc, OSError):
+            raise OutputError(f"could not write {what} {path}: {exc.strerror or exc}") from None
+        raise
+
+
+@contextlib.contextmanager
+def written(path, what="the file"):
+    """Around code that writes ``path`` directly (a figure): if it fails, no file is
+    left, and a failed write is an :class:`OutputError`."""
+    try:
+        yield
+    except BaseException as exc:
+        Path(path).unlink(missing_ok=True)
         if isinstance(exc, OSError):
             raise OutputError(f"could not write {what} {path}: {exc.strerror or exc}") from None
         raise

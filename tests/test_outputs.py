@@ -241,3 +241,25 @@ def test_second_writer_is_refused_and_a_dead_writers_lock_taken_over(tmp_path, c
     assert code == 0, err
     assert f"{k} of 16 points already done" in err
     assert out.exists() and not lock_path(out).exists() and not journal_path(out).exists()
+
+
+def test_figure_that_fills_the_disk_leaves_no_file_and_the_scan_stands(tmp_path, monkeypatch,
+                                                                     capsys):
+    import pumpsim.plots as plots
+
+    setup = three_level(tmp_path)
+    out, fig = tmp_path / "scan.h5", tmp_path / "scan.png"
+
+    def save(figure, path):  # half a PNG, then the disk is full
+        with open(path, "wb") as fh:
+            fh.write(b"\x89PNG\r\n")
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    monkeypatch.setattr(plots, "_save", save)
+    code, stdout, err = cli(capsys, "scan", setup.path, *SMALL, "--out", out, "--plot", fig,
+                            "--workers", 1)
+    assert code == 1
+    assert stdout.startswith(f"wrote {out}: 3 × 2 grid, 6 points")
+    assert err.splitlines()[-1] == (f"pumpsim: failed: could not write the figure {fig}: "
+                                    "No space left on device")
+    assert out.exists() and not fig.exists()

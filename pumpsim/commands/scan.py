@@ -4,7 +4,7 @@ grids to HDF5, resumable after an interruption."""
 from dataclasses import replace
 from pathlib import Path
 
-from ..outpaths import check_output
+from ..outpaths import check_output, written
 from ..scan import disk_need, parse_axes, scan
 from .common import add_setup_arguments, command_line, print_json, setup_from_args, status
 from .parallel import add_batch_arguments, check_plot_path, executor_from_args, progress
@@ -41,10 +41,6 @@ def handle(args):
     with executor_from_args(args, setup.path) as ex, progress(f"scan ({ex.describe()})") as bar:
         result = scan(setup, axes, args.out, ex, bar, command_line(), resume=args.resume,
                       note=lambda line: status("pumpsim: " + line))
-    if args.plot:
-        from ..plots import plot_scan
-
-        plot_scan(result, args.plot, args.target_fraction)
     if args.json:
         print_json(result.to_dict())
         for c in result.cautions:
@@ -64,6 +60,10 @@ def handle(args):
         print()
         for c in result.cautions:
             print("CAUTION: " + c)
-    if args.plot:
+    if args.plot:  # after the numbers: a figure that fails costs nothing else
+        from ..plots import plot_scan
+
+        with written(args.plot, "the figure"):
+            plot_scan(result, args.plot, args.target_fraction)
         status(f"wrote {args.plot}")
     return 0
