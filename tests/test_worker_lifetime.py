@@ -82,3 +82,36 @@ def test_no_process_outlives_a_stopped_scan(tmp_path, how):
         assert f"points are kept in {journal_path(out)}: the same command with --resume " \
                "continues" in stderr
     assert read_journal(journal_path(out))[1]  # the finished points are kept
+
+
+@pytest.mark.skipif(sys.platform == "win32", reason="POSIX signals")
+def test_a_worker_killed_from_outside_ends_the_scan_plainly(tmp_path):
+    # what the kernel's out-of-memory killer does to the largest process (from memory)
+    psutil = pytest.importorskip("psutil")
+    setup = three_level(tmp_path, width=0.5)
+    out = tmp_path / "scan.h5"
+    argv = [sys.executable, "-m", "pumpsim.cli", "scan", str(setup.path), *VARY,
+            "--out", str(out), "--workers", "2"]
+    proc = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    try:
+        deadline = time.monotonic() + 300
+        while True:
+            found = read_journal(journal_path(out))
+            if found is not None and found[1]:
+                break
+            assert proc.poll() is None
+            assert time.monotonic() < deadline, "no point finished in 5 minutes"
+            time.sleep(0.01)
+        workers = [p for p in psutil.Process(proc.pid).children(recursive=True)
+                   if p.ppid() != proc.pid]  # the pool server's children
+        assert workers and proc.poll() is None, "the scan ended before a worker was killed"
+        workers[0].kill()
+        _, stderr = proc.communicate(timeout=120)
+    finally:
+        proc.kill()
+        proc.wait()
+    assert proc.returncode == 1
+    assert "Traceback" not in stderr
+    assert stderr.splitlines()[-1] == ("pumpsim: failed: a worker process died while running "
+                                       "a simulation (killed from outside, or out of memory?)")
+    assert f"points are kept in {journal_path(out)}" in stderr
