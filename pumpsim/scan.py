@@ -187,6 +187,14 @@ def parse_axis(text, setup) -> Axis:
 
 
 def parse_axes(texts, setup) -> tuple:
+    """The axes of ``--vary`` texts; a grid larger than :func:`memory_limit` allows is
+    refused before any axis is built."""
+    points = np.prod([_points_asked(t) for t in texts], dtype=float)
+    need, have = memory_need(setup, points), memory_limit()
+    if need > have:
+        raise InputError(f"a grid of {points:.3g} points needs about {size_text(need)} of "
+                         f"memory, more than the {size_text(have)} (half of this machine's) a "
+                         "scan may take; use fewer points or split the scan", setup.path, "--vary")
     axes = tuple(parse_axis(t, setup) for t in texts)
     keys = [a.key for a in axes]
     for k in keys:
@@ -194,13 +202,17 @@ def parse_axes(texts, setup) -> tuple:
             raise InputError("the same key is varied twice", setup.path, "--vary", k)
     if not axes:
         raise InputError("give at least one --vary KEY=START:STOP:N", setup.path, "--vary")
-    need, have = memory_need(setup, axes), memory_limit()
-    if need > have:
-        points = np.prod([len(a.values) for a in axes], dtype=float)
-        raise InputError(f"a grid of {points:.3g} points needs about {size_text(need)} of "
-                         f"memory, more than the {size_text(have)} (half of this machine's) a "
-                         "scan may take; use fewer points or split the scan", setup.path, "--vary")
     return axes
+
+
+def _points_asked(text) -> int:
+    """The N of ``KEY=START:STOP:N[:log]``, or 1 where there is none to read
+    (:func:`parse_axis` then says what is wrong)."""
+    parts = text.partition("=")[2].split(":")
+    try:
+        return max(1, int(parts[2]))
+    except (IndexError, ValueError):
+        return 1
 
 
 def numbers_per_point(setup) -> int:
@@ -208,9 +220,8 @@ def numbers_per_point(setup) -> int:
     return len(setup.scheme.ids) + 1 + 2 * len(setup.beams) + 5
 
 
-def memory_need(setup, axes) -> float:
-    """Bytes a scan of this grid holds in memory at its largest."""
-    points = np.prod([len(a.values) for a in axes], dtype=float)
+def memory_need(setup, points) -> float:
+    """Bytes a scan of ``points`` grid points holds in memory at its largest."""
     return COPIES * 8.0 * numbers_per_point(setup) * points
 
 
