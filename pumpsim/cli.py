@@ -46,8 +46,10 @@ def main(argv=None):
     if args.command is None:
         parser.print_help(sys.stderr)
         return 2
-    main_thread = threading.current_thread() is threading.main_thread()
-    previous = signal.signal(signal.SIGTERM, _terminate) if main_thread else None
+    # the window's event loop would hold the exception back: it keeps the default
+    catch_term = (threading.current_thread() is threading.main_thread()
+                  and args.command != "gui")
+    previous = signal.signal(signal.SIGTERM, _terminate) if catch_term else None
     try:
         with warnings.catch_warnings():
             if not os.environ.get("PUMPSIM_DEBUG"):
@@ -76,7 +78,7 @@ def main(argv=None):
         print(f"pumpsim: failed: {type(exc).__name__}: {exc}", file=sys.stderr)
         return 1
     finally:
-        if main_thread:
+        if previous is not None:
             signal.signal(signal.SIGTERM, previous)
 
 
