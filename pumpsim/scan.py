@@ -404,9 +404,12 @@ def _scan(setup, axes, out, executor, progress, command, resume, note):
                  f"{'are' if rejected != 1 else 'is'} not a whole, physical result of its "
                  "grid point (edited or damaged?): computed again")
     else:
+        if resume and jpath.exists():  # its points may be worth more than this run
+            raise InputError(f"{jpath} is not a scan journal this pumpsim can read (written "
+                             "by another version, or damaged); move it away, or run without "
+                             "--resume to start afresh", out, "--resume")
         if resume:
-            note(f"nothing to resume ({jpath} " + ("is unreadable" if jpath.exists()
-                 else "does not exist") + "): starting from the first point")
+            note(f"nothing to resume ({jpath} does not exist): starting from the first point")
         elif jpath.exists() or tmp.exists():
             note(f"replacing the unfinished scan in {jpath if jpath.exists() else tmp} "
                  "(--resume would have continued it)")
