@@ -28,6 +28,8 @@ JOURNAL_FORMAT = 2  # first-line marker of a scan journal, raised if its layout 
 FSYNC_EVERY = 1.0  # s: longest a finished point waits to be forced onto the disk
 SLACK = 1e-9  # populations may stray this far outside [0, 1] by round-off
 SUM_SLACK = 1e-6  # and sum to 1 within this (the engine's own limit is 1e-9)
+HEADER_BYTES = 64 << 20  # longest header line read (it holds the setup and scheme texts)
+RECORD_BYTES = 1 << 20  # longest record line read (a few hundred bytes per level and beam)
 
 
 def journal_path(out) -> Path:
@@ -219,23 +221,37 @@ def read_journal(path):
         computed again); ``None`` if there is no file or no valid header line.
         A last line without its newline (cut by a kill) is not counted.
     """
-    try:
-        data = Path(path).read_bytes()
-    except FileNotFoundError:
+    path = Path(path)
+    if not path.is_file():  # missing, or a device or pipe that is no journal
         return None
-    lines = data.split(b"\n")[:-1]  # the piece after the last newline is torn or empty
-    header = _parse(lines[0]) if lines else None
-    if not _header_ok(header):
-        return None
-    records, rejected = {}, 0
-    for line in lines[1:]:
-        r = _parse(line)
-        if check_record(r, header):
-            records.pop(r["i"], None)
-            records[r["i"]] = r
-        else:
-            rejected += 1
+    with open(path, "rb") as fh:
+        first = fh.readline(HEADER_BYTES)
+        header = _parse(first) if first.endswith(b"\n") else None
+        if not _header_ok(header):
+            return None
+        records, rejected = {}, 0
+        for line in _lines(fh):
+            r = _parse(line)
+            if check_record(r, header):
+                records.pop(r["i"], None)
+                records[r["i"]] = r
+            else:
+                rejected += 1
     return header, list(records.values()), rejected
+
+
+def _lines(fh):
+    """Whole lines of a record's size; a longer line is read past and given as ``b""``
+    (no record), and the piece after the last newline (torn by a kill) is dropped."""
+    while True:
+        line = fh.readline(RECORD_BYTES)
+        if not line.endswith(b"\n"):
+            if len(line) < RECORD_BYTES:
+                return
+            while line and not line.endswith(b"\n"):
+                line = fh.readline(RECORD_BYTES)
+            line = b""
+        yield line
 
 
 def _same_values(a, b) -> bool:
