@@ -5,6 +5,7 @@ import os
 
 from ..errors import InputError
 from ..executors import make_executor
+from ..executors.cluster import NO_WORKERS_TIMEOUT
 from ..outpaths import check_output
 from ..progress import Progress
 
@@ -19,6 +20,10 @@ def add_executor_arguments(p):
                    help="run on a Dask distributed cluster through its scheduler, e.g. "
                         "tcp://10.0.0.5:8786 (needs the optional extra: pip install "
                         "'pumpsim[dask]')")
+    g.add_argument("--worker-wait", type=float, metavar="SECONDS",
+                   help="with --scheduler: how long the cluster may have no worker (all "
+                        "died, or none has started yet) before the work stops, keeping what "
+                        f"is done (default {NO_WORKERS_TIMEOUT:g})")
 
 
 def add_batch_arguments(p, handler):
@@ -44,11 +49,17 @@ def executor_from_args(args, file=None):
     """The executor the options ask for (``file``: the setup, for messages)."""
     if args.workers is not None and args.workers < 1:
         raise InputError(f"must be at least 1, got {args.workers}", file, "--workers")
-    executor = make_executor(args.workers, args.scheduler)
+    if args.worker_wait is not None and not args.worker_wait > 0:
+        raise InputError(f"must be more than 0 s, got {args.worker_wait:g}", file,
+                         "--worker-wait")
+    executor = make_executor(args.workers, args.scheduler, args.worker_wait)
     if args.scheduler and not os.environ.get("PUMPSIM_DEBUG"):
         # Dask logs its reconnection attempts with tracebacks; the executor reports a
-        # lost scheduler or lost workers itself, in one line
-        logging.getLogger("distributed").setLevel(logging.CRITICAL + 1)
+        # lost scheduler or lost workers itself, in one line. Dask's configuration gives
+        # some of its loggers their own levels, so each is silenced.
+        names = [n for n in logging.root.manager.loggerDict if n.startswith("distributed.")]
+        for name in ["distributed", *names]:
+            logging.getLogger(name).setLevel(logging.CRITICAL + 1)
     return executor
 
 

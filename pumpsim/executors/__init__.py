@@ -13,8 +13,9 @@ __all__ = ["Executor", "ExecutorLost", "SerialExecutor", "ProcessExecutor", "Das
            "make_executor", "imap_unordered", "run_ordered"]
 
 
-def make_executor(workers=None, scheduler=None) -> Executor:
-    """The executor for the command-line options ``--workers`` and ``--scheduler``.
+def make_executor(workers=None, scheduler=None, worker_wait=None) -> Executor:
+    """The executor for the command-line options ``--workers``, ``--scheduler`` and
+    ``--worker-wait``.
 
     Parameters
     ----------
@@ -23,9 +24,12 @@ def make_executor(workers=None, scheduler=None) -> Executor:
     scheduler : str or None
         Address of a running Dask distributed scheduler (``tcp://host:8786``);
         when given, ``workers`` is ignored.
+    worker_wait : float or None
+        Seconds a Dask cluster may be without workers before the work stops
+        (default :data:`pumpsim.executors.cluster.NO_WORKERS_TIMEOUT`).
     """
     if scheduler:
-        return DaskExecutor(scheduler)
+        return DaskExecutor(scheduler, worker_wait)
     if workers == 1:
         return SerialExecutor()
     return ProcessExecutor(workers)
