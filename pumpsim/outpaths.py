@@ -20,6 +20,7 @@ simply taken over by the next one.
 
 import contextlib
 import datetime
+import errno
 import os
 import shutil
 import socket
@@ -176,7 +177,10 @@ class OutputLock:
         while True:
             fd = os.open(self.path, os.O_RDWR | os.O_CREAT, 0o644)
             if not _try_lock(fd):
-                text = os.read(fd, 4096).decode("utf-8", "replace")
+                try:
+                    text = os.read(fd, 4096).decode("utf-8", "replace")
+                except OSError:  # Windows refuses reads of a region another process locked
+                    text = ""
                 holder = text.partition("\n")[0].strip() or "unknown"
                 os.close(fd)
                 raise InputError(f"{self.out} is being written by another pumpsim ({holder}; "
@@ -222,4 +226,7 @@ def _try_lock(fd) -> bool:
         fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
     except BlockingIOError:
         return False
+    except OSError as exc:  # a file system without locks: write unguarded, as before locks
+        if exc.errno not in (errno.ENOLCK, errno.EOPNOTSUPP, errno.ENOSYS):
+            raise
     return True

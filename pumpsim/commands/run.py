@@ -10,7 +10,7 @@ from ..simulate import simulate
 from ..sublevel_report import sublevel_summary
 from .common import add_setup_arguments, command_line, print_json, setup_from_args, status
 
-NODES_GUESS = 50_000  # ensemble nodes a run's file is sized for before the run
+NODES_GUESS = 10_000  # ensemble nodes a run's file is sized for before the run (typical)
 
 
 def add_parser(sub):
