@@ -32,8 +32,9 @@ from .errors import InputError
 SPARE = 1 << 20  # bytes: free space kept beyond an estimate (file-system overheads)
 
 
-class OutputError(RuntimeError):
-    """A file could not be written (exit 1); the message says what is kept and where."""
+class OutputError(OSError):
+    """A file could not be written (exit 1); the message says what is kept and where.
+    An ``OSError``, so that callers that handle failed writes (the window) handle it."""
 
 
 def partial_path(out) -> Path:
