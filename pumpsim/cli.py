@@ -7,12 +7,25 @@ table and key), 1 anything else. No traceback reaches the user unless
 
 import argparse
 import os
+import signal
 import sys
+import threading
 import warnings
 
 from . import __version__
 from .commands import COMMANDS
 from .errors import InputError
+from .executors import ExecutorLost
+from .outpaths import OutputError
+
+
+class Terminated(KeyboardInterrupt):
+    """SIGTERM (``kill``, a batch system's time limit), raised in the main thread so that
+    the work stops as for Ctrl-C: finished scan points kept, worker processes ended."""
+
+
+def _terminate(signum, frame):
+    raise Terminated
 
 
 def build_parser():
@@ -33,6 +46,10 @@ def main(argv=None):
     if args.command is None:
         parser.print_help(sys.stderr)
         return 2
+    # the window's event loop would hold the exception back: it keeps the default
+    catch_term = (threading.current_thread() is threading.main_thread()
+                  and args.command != "gui")
+    previous = signal.signal(signal.SIGTERM, _terminate) if catch_term else None
     try:
         with warnings.catch_warnings():
             if not os.environ.get("PUMPSIM_DEBUG"):
@@ -46,14 +63,23 @@ def main(argv=None):
     except BrokenPipeError:  # output piped into e.g. `head`, which stopped reading
         sys.stdout = open(os.devnull, "w")
         return 0
-    except KeyboardInterrupt:
-        print("pumpsim: interrupted", file=sys.stderr)
+    except KeyboardInterrupt as exc:
+        stop = "terminated (SIGTERM)" if isinstance(exc, Terminated) else "interrupted"
+        print(f"pumpsim: {stop}", file=sys.stderr)
+        return 1
+    except (OutputError, ExecutorLost) as exc:  # messages written for users as they are
+        if os.environ.get("PUMPSIM_DEBUG"):
+            raise
+        print(f"pumpsim: failed: {exc}", file=sys.stderr)
         return 1
     except Exception as exc:  # the contract: exit 1, a message, no traceback
         if os.environ.get("PUMPSIM_DEBUG"):
             raise
         print(f"pumpsim: failed: {type(exc).__name__}: {exc}", file=sys.stderr)
         return 1
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
 
 
 if __name__ == "__main__":

@@ -1,18 +1,21 @@
 """Write a result to HDF5 (layout documented in the README).
 
-The file is written under a temporary name and renamed when complete, so an
-interrupted run never leaves a file that looks complete; the root attribute
-``complete`` is set last as a second guard.
+A file is built whole in memory, then written under a temporary name, synced
+and renamed (:func:`pumpsim.outpaths.commit`), so an interrupted run or a
+full disk never leaves a file that looks complete, and a failed write is a
+plain ``OSError`` of Python's own file I/O: the HDF5 library never sees a
+disk error (it crashed the process on one). The root attribute ``complete``
+is set last as a second guard.
 """
 
 import datetime
-import os
-from pathlib import Path
+import io
 
 import h5py
 import numpy as np
 
 from . import __version__
+from .outpaths import commit
 from .setup_file import setup_to_toml
 
 STR = h5py.string_dtype()
@@ -46,8 +49,16 @@ def write_sublevels(f, rep):
     g.attrs["dark_fraction"] = rep.dark_fraction
 
 
+def h5_bytes(fill) -> bytes:
+    """The bytes of an HDF5 file that ``fill(f)`` writes into an open, empty ``f``."""
+    buf = io.BytesIO()
+    with h5py.File(buf, "w") as f:
+        fill(f)
+    return buf.getvalue()
+
+
 def write_result(path, result, command=""):
-    """Write one simulation result to ``path`` atomically.
+    """Write one simulation result to ``path`` whole, or nothing.
 
     Parameters
     ----------
@@ -55,53 +66,59 @@ def write_result(path, result, command=""):
     result : Result
     command : str
         The command line that produced it, stored as an attribute.
+
+    Raises
+    ------
+    OutputError
+        If the file could not be written (nothing is left at ``path``).
     """
-    path = Path(path)
-    tmp = path.with_name(path.name + ".partial")
+    commit(path, h5_bytes(lambda f: fill_result(f, result, command)), "the result file")
+
+
+def fill_result(f, result, command):
+    """The layout of a run's file (README), into the open file ``f``."""
     setup = result.setup
     beams = [b.name for b in setup.beams]
-    with h5py.File(tmp, "w") as f:
-        f.attrs["pumpsim_version"] = __version__
-        f.attrs["created_utc"] = datetime.datetime.now(datetime.timezone.utc).isoformat()
-        f.attrs["command"] = command
-        f.attrs["kind"] = "run"
-        f.attrs["complete"] = False
-        write_inputs(f, setup)
-        r = f.create_group("results")
-        r.attrs["target"] = setup.target
-        r.attrs["transfer_fraction"] = result.transfer_fraction
-        d = r.create_dataset("final_populations", data=[result.final_populations[k] for k in result.levels])
-        d.attrs["levels"] = list(result.levels)
-        d.attrs["units"] = "fraction"
-        for name, values, unit in (
-                ("photons_per_atom", [result.photons_per_atom[b] for b in beams], "photons"),
-                ("deflection_mrad", [1e3 * result.deflection[b] for b in beams], "mrad")):
-            d = r.create_dataset(name, data=np.array(values, dtype=float))
-            d.attrs["beams"] = beams
-            d.attrs["units"] = unit
-        p = f.create_group("profile")
-        p.create_dataset("z_mm", data=result.z * 1e3).attrs["units"] = "mm"
-        d = p.create_dataset("populations", data=result.profile)
-        d.attrs["levels"] = list(result.levels)
-        d.attrs["units"] = "fraction"
-        n = f.create_group("nodes")
-        nodes, L, B = result.nodes, len(result.levels), len(beams)
-        for name, data, unit in (("speed_m_s", nodes.v, "m/s"), ("angle_mrad", nodes.a * 1e3, "mrad"),
-                                 ("offset_mm", nodes.y0 * 1e3, "mm"), ("weight", nodes.weight, "1"),
-                                 ("populations", nodes.values[:, :L], "fraction"),
-                                 ("photons", nodes.values[:, L:L + B], "photons"),
-                                 ("deflection_mrad", nodes.values[:, L + B:] * 1e3, "mrad")):
-            n.create_dataset(name, data=data, compression="gzip").attrs["units"] = unit
-        n.attrs["levels"] = list(result.levels)
-        n.attrs["beams"] = beams
-        if result.sublevels is not None:  # sublevel mode (docs/sublevel.md)
-            write_sublevels(f, result.sublevels)
-        num = f.create_group("numerics")
-        for k, v in result.numerics.to_dict().items():
-            if isinstance(v, dict):
-                for kk, vv in v.items():
-                    num.attrs[f"{k}.{kk}"] = vv
-            else:
-                num.attrs[k] = v
-        f.attrs["complete"] = True
-    os.replace(tmp, path)
+    f.attrs["pumpsim_version"] = __version__
+    f.attrs["created_utc"] = datetime.datetime.now(datetime.timezone.utc).isoformat()
+    f.attrs["command"] = command
+    f.attrs["kind"] = "run"
+    f.attrs["complete"] = False
+    write_inputs(f, setup)
+    r = f.create_group("results")
+    r.attrs["target"] = setup.target
+    r.attrs["transfer_fraction"] = result.transfer_fraction
+    d = r.create_dataset("final_populations", data=[result.final_populations[k] for k in result.levels])
+    d.attrs["levels"] = list(result.levels)
+    d.attrs["units"] = "fraction"
+    for name, values, unit in (
+            ("photons_per_atom", [result.photons_per_atom[b] for b in beams], "photons"),
+            ("deflection_mrad", [1e3 * result.deflection[b] for b in beams], "mrad")):
+        d = r.create_dataset(name, data=np.array(values, dtype=float))
+        d.attrs["beams"] = beams
+        d.attrs["units"] = unit
+    p = f.create_group("profile")
+    p.create_dataset("z_mm", data=result.z * 1e3).attrs["units"] = "mm"
+    d = p.create_dataset("populations", data=result.profile)
+    d.attrs["levels"] = list(result.levels)
+    d.attrs["units"] = "fraction"
+    n = f.create_group("nodes")
+    nodes, L, B = result.nodes, len(result.levels), len(beams)
+    for name, data, unit in (("speed_m_s", nodes.v, "m/s"), ("angle_mrad", nodes.a * 1e3, "mrad"),
+                             ("offset_mm", nodes.y0 * 1e3, "mm"), ("weight", nodes.weight, "1"),
+                             ("populations", nodes.values[:, :L], "fraction"),
+                             ("photons", nodes.values[:, L:L + B], "photons"),
+                             ("deflection_mrad", nodes.values[:, L + B:] * 1e3, "mrad")):
+        n.create_dataset(name, data=data, compression="gzip").attrs["units"] = unit
+    n.attrs["levels"] = list(result.levels)
+    n.attrs["beams"] = beams
+    if result.sublevels is not None:  # sublevel mode (docs/sublevel.md)
+        write_sublevels(f, result.sublevels)
+    num = f.create_group("numerics")
+    for k, v in result.numerics.to_dict().items():
+        if isinstance(v, dict):
+            for kk, vv in v.items():
+                num.attrs[f"{k}.{kk}"] = vv
+        else:
+            num.attrs[k] = v
+    f.attrs["complete"] = True

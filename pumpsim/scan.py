@@ -12,20 +12,26 @@ fsync'd at least every :data:`~pumpsim.scan_journal.FSYNC_EVERY` seconds (so at 
 lost to a power cut). Its first line holds the inputs: the setup as run, the
 scheme, the axes, the levels, beams and pumpsim version. HDF5 is not written
 while points are computed, because a file that h5py is changing cannot
-survive a kill. When every point is in, the HDF5 file is built under the
-temporary name ``FILE.partial``, its root attribute ``complete`` set true,
-synced to disk and renamed to ``FILE``; the journal is then deleted. If the
-scan stops on an exception or Ctrl-C, ``FILE.partial`` is written with the
-points done so far (``complete = False``, ``results/done``) for a look at
-them; after a kill only the journal is there. ``FILE`` itself never exists
-before every point is in.
+survive a kill. When every point is in, the HDF5 file is built in memory,
+its root attribute ``complete`` set true, written as ``FILE.partial``, synced
+to disk and renamed to ``FILE`` (:func:`pumpsim.outpaths.commit`); the
+journal is then deleted. If that write fails (a full disk), the partial file
+is removed and the journal kept, so ``--resume`` writes the file later
+without computing anything. If the scan stops on an exception or Ctrl-C,
+``FILE.partial`` is written with the points done so far (``complete =
+False``, ``results/done``) for a look at them; after a kill only the journal
+is there. ``FILE`` itself never exists before every point is in. For the
+whole scan ``FILE.lock`` is held (:class:`pumpsim.outpaths.OutputLock`): a
+second scan to the same ``FILE`` is refused, naming the first.
 
 ``scan(..., resume=True)`` (``pumpsim scan ... --resume``) reads the journal,
-ignoring a torn or garbled tail (a line cut by the kill is not a record, and
-so is everything after it; the file is cut back to its last whole record),
-refuses with an :class:`~pumpsim.errors.InputError` if the setup as run, the
-scheme, the axes or the pumpsim version differ from this call's, and computes
-only the missing points. Each point is a deterministic simulation and the
+ignoring a torn tail (a line cut by the kill is not a record), refuses with
+an :class:`~pumpsim.errors.InputError` if the setup as run (compared value
+by value: ``20`` and ``20.0`` are the same), the scheme, the axes or the
+pumpsim version differ from this call's, drops every record that is not a
+whole, physical result of its grid point
+(:func:`~pumpsim.scan_journal.check_record`) and computes only the missing
+points. Each point is a deterministic simulation and the
 journal keeps every number exactly (JSON's shortest round-trip float
 text), so the finished file holds the same values as an uninterrupted run.
 Only these may differ: ``results/seconds`` (each point's own wall time),
@@ -56,19 +62,21 @@ from dataclasses import dataclass
 from itertools import product
 from pathlib import Path
 
-import h5py
 import numpy as np
 
 from . import __version__
 from .errors import InputError
 from .executors import SerialExecutor, imap_unordered
-from .h5out import write_inputs
+from .h5out import h5_bytes, write_inputs
 from .outcome import evaluate
+from .outpaths import OutputError, OutputLock, commit, partial_path, size_text
 from .safety import cautions
 from .schema import FIELDS
 from .scan_journal import (Journal, Points, check_resumable, journal_header, journal_path,
                            read_journal)
 
+RECORD_BYTES = 30  # journal bytes per number of a point (JSON text), with some room
+COPIES = 3  # a grid is held in memory as arrays, as the HDF5 image and as its bytes
 
 
 @dataclass(frozen=True)
@@ -179,6 +187,14 @@ def parse_axis(text, setup) -> Axis:
 
 
 def parse_axes(texts, setup) -> tuple:
+    """The axes of ``--vary`` texts; a grid larger than :func:`memory_limit` allows is
+    refused before any axis is built."""
+    points = np.prod([_points_asked(t) for t in texts], dtype=float)
+    need, have = memory_need(setup, points), memory_limit()
+    if need > have:
+        raise InputError(f"a grid of {points:.3g} points needs about {size_text(need)} of "
+                         f"memory, more than the {size_text(have)} (half of this machine's) a "
+                         "scan may take; use fewer points or split the scan", setup.path, "--vary")
     axes = tuple(parse_axis(t, setup) for t in texts)
     keys = [a.key for a in axes]
     for k in keys:
@@ -187,6 +203,41 @@ def parse_axes(texts, setup) -> tuple:
     if not axes:
         raise InputError("give at least one --vary KEY=START:STOP:N", setup.path, "--vary")
     return axes
+
+
+def _points_asked(text) -> int:
+    """The N of ``KEY=START:STOP:N[:log]``, or 1 where there is none to read
+    (:func:`parse_axis` then says what is wrong)."""
+    parts = text.partition("=")[2].split(":")
+    try:
+        return max(1, int(parts[2]))
+    except (IndexError, ValueError):
+        return 1
+
+
+def numbers_per_point(setup) -> int:
+    """Numbers a scan keeps per grid point (populations, photons, deflections, the rest)."""
+    return len(setup.scheme.ids) + 1 + 2 * len(setup.beams) + 5
+
+
+def memory_need(setup, points) -> float:
+    """Bytes a scan of ``points`` grid points holds in memory at its largest."""
+    return COPIES * 8.0 * numbers_per_point(setup) * points
+
+
+def memory_limit() -> float:
+    """Bytes a scan may take: half the machine's memory (8 GB where it cannot be read)."""
+    try:
+        return os.sysconf("SC_PHYS_PAGES") * os.sysconf("SC_PAGE_SIZE") / 2
+    except (AttributeError, ValueError, OSError):
+        return 8e9
+
+
+def disk_need(setup, axes) -> float:
+    """Bytes a scan's file and journal take on the disk together, at most."""
+    points = np.prod([len(a.values) for a in axes], dtype=float)
+    inputs = 4 * (len(setup.text or "") + len(setup.scheme.text or "")) + (1 << 16)
+    return (8 + RECORD_BYTES) * numbers_per_point(setup) * points + inputs
 
 
 def setup_at(setup, axes, values):
@@ -255,15 +306,9 @@ class Scan:
 
 
 
-def partial_path(out) -> Path:
-    """The temporary name of the HDF5 file until it is complete."""
-    out = Path(out)
-    return out.with_name(out.name + ".partial")
-
-
-def write_scan_file(path, setup, axes, points, command, created, resumed, complete):
-    """Write the HDF5 file of a scan (layout in the module docstring) in one go."""
-    with h5py.File(path, "w") as f:
+def scan_bytes(setup, axes, points, command, created, resumed, complete) -> bytes:
+    """The HDF5 file of a scan (layout in the module docstring), built in memory."""
+    def fill(f):
         f.attrs.update(kind="scan", pumpsim_version=__version__, command=command,
                        created_utc=created, shape=points.shape, axes=[a.key for a in axes],
                        complete=False, points_resumed=resumed)
@@ -292,12 +337,8 @@ def write_scan_file(path, setup, axes, points, command, created, resumed, comple
             for d, sc in enumerate(scales):
                 ds.dims[d].attach_scale(sc)
         f.attrs["complete"] = complete  # last: a file cut short never says complete
-    if complete:  # on the disk before the rename makes it the finished file
-        fd = os.open(path, os.O_RDWR)  # a writable handle: Windows syncs only those
-        try:
-            os.fsync(fd)
-        finally:
-            os.close(fd)
+
+    return h5_bytes(fill)
 
 
 def scan(setup, axes, out, executor=None, progress=None, command="", resume=False,
@@ -322,7 +363,8 @@ def scan(setup, axes, out, executor=None, progress=None, command="", resume=Fals
         ``False`` replaces any journal there.
     note : callable, optional
         Called with one line for the user when a journal is resumed, absent
-        or replaced.
+        or replaced, has records that are computed again, or is kept after a
+        failure.
 
     Returns
     -------
@@ -331,28 +373,43 @@ def scan(setup, axes, out, executor=None, progress=None, command="", resume=Fals
     Raises
     ------
     InputError
-        ``resume`` with a journal written for other inputs (nothing is changed).
+        ``resume`` with a journal written for other inputs (nothing is
+        changed), or another process writing ``out``.
+    OutputError
+        The file could not be written; the journal keeps every point.
     """
-    axes = tuple(axes)
-    shape = tuple(len(a.values) for a in axes)
     note = note or (lambda line: None)
+    with OutputLock(out, command, setup.path):
+        return _scan(setup, tuple(axes), Path(out), executor or SerialExecutor(), progress,
+                     command, resume, note)
+
+
+def _scan(setup, axes, out, executor, progress, command, resume, note):
+    shape = tuple(len(a.values) for a in axes)
     points = Points(shape, setup.scheme.ids + ("other",), [b.name for b in setup.beams])
     jpath, tmp = journal_path(out), partial_path(out)
     created = datetime.datetime.now(datetime.timezone.utc).isoformat()
     found = read_journal(jpath) if resume else None
     if found is not None:
-        header, records, length = found
+        header, records, rejected = found
         check_resumable(header, setup, axes, out)
         for r in records:
             points.put(r)
         created = header["created_utc"]
-        journal = Journal.reopen(jpath, length)
-        note(f"resuming the unfinished scan in {jpath}: {int(points.done.sum())} of "
+        journal = Journal.create(jpath, header, records)  # without the rejected lines
+        note(f"resuming the unfinished scan in {jpath}: {len(records)} of "
              f"{points.done.size} points already done")
+        if rejected:
+            note(f"{rejected} line{'s' if rejected != 1 else ''} of {jpath} "
+                 f"{'are' if rejected != 1 else 'is'} not a whole, physical result of its "
+                 "grid point (edited or damaged?): computed again")
     else:
+        if resume and jpath.exists():  # its points may be worth more than this run
+            raise InputError(f"{jpath} is not a scan journal this pumpsim can read (written "
+                             "by another version, or damaged); move it away, or run without "
+                             "--resume to start afresh", out, "--resume")
         if resume:
-            note(f"nothing to resume ({jpath} " + ("is unreadable" if jpath.exists()
-                 else "does not exist") + "): starting from the first point")
+            note(f"nothing to resume ({jpath} does not exist): starting from the first point")
         elif jpath.exists() or tmp.exists():
             note(f"replacing the unfinished scan in {jpath if jpath.exists() else tmp} "
                  "(--resume would have continued it)")
@@ -360,30 +417,51 @@ def scan(setup, axes, out, executor=None, progress=None, command="", resume=Fals
     resumed = int(points.done.sum())
     if progress is not None:
         progress.remaining_at_least(points.done.size - resumed)
-    order = []  # flat grid index of each submitted task, in submission order
+    order = []  # (flat grid index, axis values) of each submitted task, in submission order
 
     def todo():
         for i, values in enumerate(product(*(a.values for a in axes))):
             if not points.done.flat[i]:
-                order.append(i)
+                order.append((i, values))
                 yield setup_at(setup, axes, values)
 
     try:
-        for k, o in imap_unordered(executor or SerialExecutor(), evaluate, todo()):
-            r = points.record(order[k], o)
+        for k, o in imap_unordered(executor, evaluate, todo()):
+            r = points.record(*order[k], o)
             journal.write(r)
             points.put(r)
             if progress is not None:
                 progress.advance()
-    except BaseException:
         journal.close()
+    except BaseException as exc:
+        with contextlib.suppress(OutputError):  # a full disk: the first error says it
+            journal.close()
         # a readable snapshot of the points done; the journal, not this, is resumed
         with contextlib.suppress(Exception):
-            write_scan_file(tmp, setup, axes, points, command, created, resumed, False)
+            _snapshot(tmp, scan_bytes(setup, axes, points, command, created, resumed, False))
+        if not isinstance(exc, InputError):
+            note(kept(points, jpath))
         raise
-    journal.close()
-    write_scan_file(tmp, setup, axes, points, command, created, resumed, True)
-    os.replace(tmp, out)
+    try:
+        commit(out, scan_bytes(setup, axes, points, command, created, resumed, True),
+               "the scan file")
+    except OutputError as exc:
+        raise OutputError(f"{exc}; {kept(points, jpath)}") from None
     jpath.unlink(missing_ok=True)
-    return Scan(Path(out), setup, axes, points.fraction, points.conv,
+    return Scan(out, setup, axes, points.fraction, points.conv,
                 scan_cautions(setup, axes), resumed)
+
+
+def kept(points, jpath) -> str:
+    """What a stopped scan kept, and how to go on."""
+    return (f"{int(points.done.sum())} of {points.done.size} points are kept in {jpath}: "
+            "the same command with --resume continues")
+
+
+def _snapshot(path, data):
+    """Write a look at an unfinished scan; nothing is left if that fails."""
+    try:
+        Path(path).write_bytes(data)
+    except BaseException:
+        Path(path).unlink(missing_ok=True)
+        raise

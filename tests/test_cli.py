@@ -167,11 +167,16 @@ def test_run_out_writes_complete_hdf5(capsys, setup_path, tmp_path):
         assert "tolerance" in f["numerics"].attrs and "steps" in f["numerics"].attrs
 
 
-def test_run_out_unwritable_is_exit_1_without_traceback(capsys, setup_path, tmp_path):
-    code, _, err = run_cli(capsys, "run", setup_path, "--out", tmp_path / "no" / "dir" / "r.h5")
-    assert code == 1
-    assert "Traceback" not in err and "pumpsim" in err
-    assert not list(tmp_path.rglob("*.h5"))
+def test_run_out_into_missing_folder_is_exit_2_before_computing(capsys, setup_path, tmp_path,
+                                                                 monkeypatch):
+    import pumpsim.commands.run as run_cmd
+
+    monkeypatch.setattr(run_cmd, "simulate", lambda *a, **k: pytest.fail("computed first"))
+    out = tmp_path / "no" / "dir" / "r.h5"
+    code, stdout, err = run_cli(capsys, "run", setup_path, "--out", out)
+    assert (code, stdout) == (2, "")
+    assert_names(err, setup_path, "[--out]", f"the folder {out.parent} of {out} does not exist")
+    assert not list(tmp_path.rglob("*.h5*"))
 
 
 def test_run_missing_file_is_exit_2_naming_it(capsys, tmp_path):

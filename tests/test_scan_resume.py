@@ -99,10 +99,10 @@ def test_killed_scan_resumes_to_the_uninterrupted_file(tmp_path, capsys):
     assert proc.returncode == -signal.SIGKILL, "the scan finished before it was killed"
     assert not out.exists()
     assert not partial_path(out).exists()  # a kill leaves the journal only
-    header, records, length = read_journal(journal_path(out))
+    header, records, rejected = read_journal(journal_path(out))
     k = len(records)
     assert 2 <= k < 16 and header["axes"][0]["key"] == "beam.pump.power_mW"
-    assert length <= journal_path(out).stat().st_size  # more only if killed mid-line
+    assert rejected == 0  # a line cut by the kill is no record, and no rejected one either
 
     code, _, err = cli(capsys, "scan", setup.path, *VARY, "--out", out, "--workers", 1,
                        "--resume")
@@ -149,11 +149,11 @@ def test_torn_last_record_is_ignored_and_pool_resumes(tmp_path, monkeypatch, cap
     record["i"] = 5  # a point not done, cut short as a kill mid-write would leave it
     torn = json.dumps(record).encode()[:-7]
     journal.write_bytes(whole + torn)
-    header, records, length = read_journal(journal)
-    assert len(records) == 3 and length == len(whole)
-    # a newline-ended line that is not a record of this grid ends the good part too
+    header, records, rejected = read_journal(journal)
+    assert len(records) == 3 and rejected == 0
+    # a newline-ended line that is not a record of this grid is rejected; later ones count
     journal.write_bytes(whole + b'{"i": 99}\n' + lines[-1])
-    assert read_journal(journal)[2] == len(whole)
+    assert read_journal(journal)[1:] == (records, 1)
     journal.write_bytes(whole + torn)
 
     with ProcessExecutor(2) as ex:  # the resume runs in a process pool
@@ -185,3 +185,89 @@ def test_resume_without_journal_runs_and_a_new_run_replaces_one(tmp_path, monkey
     assert_same_scan(out2, out)
     with h5py.File(out2) as f:
         assert f.attrs["points_resumed"] == 0
+
+
+def test_edited_or_non_finite_records_are_computed_again(tmp_path, monkeypatch, capsys):
+    # a population must be a finite number in [0, 1], the populations sum to 1 and the
+    # transfer fraction is the target's population (definitions, no source needed)
+    setup = three_level(tmp_path)
+    out, ref = tmp_path / "edited.h5", tmp_path / "straight.h5"
+    interrupted_scan(monkeypatch, setup, out, 4)
+    journal = journal_path(out)
+    header, *lines = journal.read_text().splitlines()
+    edits = [json.loads(line) for line in lines]
+    edits[0]["transfer_fraction"] = 7.5
+    edits[1]["final_populations"][0] = float("nan")
+    edits[2]["at"] = [0.1, 300.0]  # the values of another grid point
+    edits[3]["final_populations"][2] += 0.25  # no longer sums to 1
+    journal.write_text("\n".join([header] + [json.dumps(e) for e in edits]) + "\n")
+    code, _, err = cli(capsys, "scan", setup.path, *SMALL, "--out", out, "--workers", 1,
+                       "--resume")
+    assert code == 0, err
+    assert "0 of 6 points already done" in err
+    assert f"4 lines of {journal} are not a whole, physical result of its grid point" in err
+    code, _, err = cli(capsys, "scan", setup.path, *SMALL, "--out", ref, "--workers", 1)
+    assert code == 0, err
+    assert_same_scan(out, ref)
+
+
+def test_journal_header_with_a_huge_grid_is_refused_without_allocating(tmp_path, monkeypatch,
+                                                                      capsys):
+    setup = three_level(tmp_path)
+    out = tmp_path / "scan.h5"
+    interrupted_scan(monkeypatch, setup, out, 2)
+    journal = journal_path(out)
+    header, *lines = journal.read_text().splitlines()
+    h = json.loads(header)
+    h["axes"] = [{"key": f"k{d}", "values": list(range(4000)), "spacing": "linear",
+                  "text": f"k{d}=0:3999:4000"} for d in range(3)]
+    journal.write_text("\n".join([json.dumps(h)] + lines) + "\n")
+    code, stdout, err = cli(capsys, "scan", setup.path, *SMALL, "--out", out, "--workers", 1,
+                            "--resume")
+    assert (code, stdout) == (2, "")
+    assert "has other --vary axes (k0=0:3999:4000 k1=0:3999:4000 k2=0:3999:4000)" in err
+
+
+def test_grid_too_large_for_memory_is_refused_with_the_figure(tmp_path, capsys):
+    setup = three_level(tmp_path)
+    vary = [f"source.speed_m_s=300:600:{n}" for n in (4000,)] + [
+        "beam.pump.power_mW=0.001:0.1:4000", "beam.pump.waist_mm=0.5:2:4000"]
+    code, stdout, err = cli(capsys, "scan", setup.path, *[x for v in vary for x in ("--vary", v)],
+                            "--out", tmp_path / "huge.h5")
+    assert (code, stdout) == (2, "")
+    assert err.startswith(f"pumpsim: error: {setup.path} [--vary]: a grid of 6.4e+10 points "
+                          "needs about ")  # 4000^3
+    assert "of memory, more than the" in err and "Traceback" not in err
+
+
+def test_set_value_and_the_same_value_in_the_file_resume_alike(tmp_path, monkeypatch, capsys):
+    # `--set beam.pump.waist_mm=1` and `waist_mm = 1.0` in the file are the same number
+    # (TOML 1.0: an integer and a float of equal value; common practice, no source)
+    setup = three_level(tmp_path, waist=1.0)
+    out = tmp_path / "scan.h5"
+    interrupted_scan(monkeypatch, setup.with_value("beam.pump.waist_mm", "1"), out, 2)
+    code, _, err = cli(capsys, "scan", setup.path, *SMALL, "--out", out, "--workers", 1,
+                       "--resume")
+    assert code == 0, err
+    assert "2 of 6 points already done" in err
+
+
+@pytest.mark.parametrize("kind", ["another layout", "a device"])
+def test_unreadable_journal_is_not_overwritten_by_resume(tmp_path, capsys, kind):
+    setup = three_level(tmp_path)
+    out = tmp_path / "scan.h5"
+    if kind == "another layout":
+        journal_path(out).write_text('{"pumpsim_scan_journal": 1}\n{"i": 0}\n')
+    elif sys.platform == "win32":
+        pytest.skip("no /dev/zero")
+    else:  # endless bytes, no newline: reading it whole never ends
+        journal_path(out).symlink_to("/dev/zero")
+    before = journal_path(out).read_bytes() if kind == "another layout" else None
+    code, stdout, err = cli(capsys, "scan", setup.path, *SMALL, "--out", out, "--workers", 1,
+                            "--resume")
+    assert (code, stdout) == (2, "")
+    assert err.startswith(f"pumpsim: error: {out} [--resume]: {journal_path(out)} is not a "
+                          "scan journal this pumpsim can read")
+    assert not out.exists()
+    if before is not None:
+        assert journal_path(out).read_bytes() == before

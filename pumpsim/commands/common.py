@@ -2,6 +2,7 @@
 
 import json
 import math
+import shlex
 import sys
 
 from ..demo import demo_setup_path
@@ -55,3 +56,8 @@ def print_json(obj):
 def status(message):
     """Progress and notes go to stderr, never stdout."""
     print(message, file=sys.stderr, flush=True)
+
+
+def command_line():
+    """The command as typed, for storing with results."""
+    return "pumpsim " + " ".join(shlex.quote(a) for a in sys.argv[1:])

@@ -1,10 +1,12 @@
 """Options shared by the commands that run many simulations: executor, ranges, plots."""
 
-import shlex
-import sys
+import logging
+import os
 
 from ..errors import InputError
 from ..executors import make_executor
+from ..executors.cluster import NO_WORKERS_TIMEOUT
+from ..outpaths import check_output
 from ..progress import Progress
 
 
@@ -18,6 +20,10 @@ def add_executor_arguments(p):
                    help="run on a Dask distributed cluster through its scheduler, e.g. "
                         "tcp://10.0.0.5:8786 (needs the optional extra: pip install "
                         "'pumpsim[dask]')")
+    g.add_argument("--worker-wait", type=float, metavar="SECONDS",
+                   help="with --scheduler: how long the cluster may have no worker (all "
+                        "died, or none has started yet) before the work stops, keeping what "
+                        f"is done (default {NO_WORKERS_TIMEOUT:g})")
 
 
 def add_batch_arguments(p, handler):
@@ -27,19 +33,34 @@ def add_batch_arguments(p, handler):
     p.set_defaults(handler=handler)
 
 
+PLOT_BYTES = 4 << 20  # room a figure may take on the disk
+
+
 def check_plot_path(args, setup):
     """Refuse a ``--plot`` file the figure cannot be written to, before any work."""
     if args.plot:
         from ..plots import check_path
 
         check_path(args.plot, setup.path)
+        check_output(args.plot, PLOT_BYTES, setup.path, "--plot")
 
 
 def executor_from_args(args, file=None):
     """The executor the options ask for (``file``: the setup, for messages)."""
     if args.workers is not None and args.workers < 1:
         raise InputError(f"must be at least 1, got {args.workers}", file, "--workers")
-    return make_executor(args.workers, args.scheduler)
+    if args.worker_wait is not None and not args.worker_wait > 0:
+        raise InputError(f"must be more than 0 s, got {args.worker_wait:g}", file,
+                         "--worker-wait")
+    executor = make_executor(args.workers, args.scheduler, args.worker_wait)
+    if args.scheduler and not os.environ.get("PUMPSIM_DEBUG"):
+        # Dask logs its reconnection attempts with tracebacks; the executor reports a
+        # lost scheduler or lost workers itself, in one line. Dask's configuration gives
+        # some of its loggers their own levels, so each is silenced.
+        names = [n for n in logging.root.manager.loggerDict if n.startswith("distributed.")]
+        for name in ["distributed", *names]:
+            logging.getLogger(name).setLevel(logging.CRITICAL + 1)
+    return executor
 
 
 def parse_range(text, option, scale, file=None):
@@ -72,8 +93,3 @@ def pick_beam(setup, name):
 def progress(label):
     """A progress bar on stderr for this command."""
     return Progress(label)
-
-
-def command_line():
-    """The command as typed, for storing with results."""
-    return "pumpsim " + " ".join(shlex.quote(a) for a in sys.argv[1:])

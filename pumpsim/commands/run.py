@@ -1,13 +1,16 @@
 """``pumpsim run [SETUP]``: one simulation, a readable summary or JSON, optionally HDF5."""
 
-import shlex
-import sys
+from contextlib import nullcontext
 
 from ..lines import line
+from ..outpaths import OutputError, OutputLock, check_output
+from ..progress import RunProgress
 from ..safety import cautions
 from ..simulate import simulate
 from ..sublevel_report import sublevel_summary
-from .common import add_setup_arguments, print_json, setup_from_args, status
+from .common import add_setup_arguments, command_line, print_json, setup_from_args, status
+
+NODES_GUESS = 10_000  # ensemble nodes a run's file is sized for before the run (typical)
 
 
 def add_parser(sub):
@@ -21,11 +24,38 @@ def add_parser(sub):
 
 def handle(args):
     setup = setup_from_args(args)
-    result = simulate(setup, progress=lambda m: status(f"  {m}"))
+    command = command_line()
     if args.out:
-        from ..h5out import write_result
+        check_output(args.out, file_estimate(setup), setup.path)
+    with OutputLock(args.out, command, setup.path) if args.out else nullcontext():
+        with RunProgress(setup.numerics.tolerance) as notes:
+            result = simulate(setup, progress=notes)
+        failed = None
+        if args.out:
+            from ..h5out import write_result
 
-        write_result(args.out, result, "pumpsim " + " ".join(shlex.quote(a) for a in sys.argv[1:]))
+            try:
+                write_result(args.out, result, command)
+            except OutputError as exc:  # the numbers are shown all the same, below
+                failed = exc
+    show(args, setup, result)
+    if failed is not None:
+        raise OutputError(f"{failed}; the result above was computed but not saved, and "
+                          "nothing was left at that path")
+    if args.out:
+        status(f"wrote {args.out}")
+    return 0
+
+
+def file_estimate(setup):
+    """Bytes a run's HDF5 file may take (uncompressed nodes, a typical count)."""
+    columns = len(setup.scheme.ids) + 1 + 2 * len(setup.beams) + 4
+    nodes = min(setup.numerics.max_nodes, NODES_GUESS)
+    return nodes * columns * 8 + 2 * len(setup.text or "") + (1 << 16)
+
+
+def show(args, setup, result):
+    """The result on stdout: readable, or one JSON object."""
     warnings = cautions(setup)
     if args.json:
         out = result.to_dict()
@@ -41,9 +71,6 @@ def handle(args):
         print()
         for w in warnings:
             print("CAUTION: " + w)
-    if args.out:
-        status(f"wrote {args.out}")
-    return 0
 
 
 def summary(result):

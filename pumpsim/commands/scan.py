@@ -4,10 +4,10 @@ grids to HDF5, resumable after an interruption."""
 from dataclasses import replace
 from pathlib import Path
 
-from ..scan import parse_axes, scan
-from .common import add_setup_arguments, print_json, setup_from_args, status
-from .parallel import (add_batch_arguments, check_plot_path, command_line,
-                       executor_from_args, progress)
+from ..outpaths import check_output, written
+from ..scan import disk_need, parse_axes, scan
+from .common import add_setup_arguments, command_line, print_json, setup_from_args, status
+from .parallel import add_batch_arguments, check_plot_path, executor_from_args, progress
 
 
 def add_parser(sub):
@@ -36,14 +36,11 @@ def handle(args):
     if setup.text is None and setup.path:  # keep the file verbatim even after --set
         setup = replace(setup, text=Path(setup.path).read_text(encoding="utf-8"))
     axes = parse_axes(args.vary, setup)
+    check_output(args.out, disk_need(setup, axes), setup.path)
     check_plot_path(args, setup)
     with executor_from_args(args, setup.path) as ex, progress(f"scan ({ex.describe()})") as bar:
         result = scan(setup, axes, args.out, ex, bar, command_line(), resume=args.resume,
                       note=lambda line: status("pumpsim: " + line))
-    if args.plot:
-        from ..plots import plot_scan
-
-        plot_scan(result, args.plot, args.target_fraction)
     if args.json:
         print_json(result.to_dict())
         for c in result.cautions:
@@ -63,6 +60,10 @@ def handle(args):
         print()
         for c in result.cautions:
             print("CAUTION: " + c)
-    if args.plot:
+    if args.plot:  # after the numbers: a figure that fails costs nothing else
+        from ..plots import plot_scan
+
+        with written(args.plot, "the figure"):
+            plot_scan(result, args.plot, args.target_fraction)
         status(f"wrote {args.plot}")
     return 0
