@@ -14,6 +14,7 @@ from pathlib import Path
 from .errors import InputError, near, unknown
 from .hyperfine import check_component, check_zeeman_data
 from .model import z_range
+from .plausible import check_driven_line
 from .schema import FIELDS, REQUIRED, fields_of
 from .scheme_file import load_scheme
 from .setup import Beam, Numerics, Setup, Source
@@ -191,6 +192,7 @@ def _beam(raw, i, file, scheme):
     if scheme.decay(upper, lower) is None:
         raise InputError(f"the scheme lists no decay {upper} -> {lower}, so the line has no "
                          "strength to drive", file, table, "transition", upper)
+    check_driven_line(scheme, name, lower, upper, file, table)
     v = _read_fields(raw, fields, file, table)
     if v["reference_F"] is not None:
         def fail(message):

@@ -6,7 +6,8 @@ from ..model import initial_level_populations
 from ..safety import cautions
 from ..scheme_file import load_scheme
 from ..tomlread import read_toml
-from .common import print_json
+from ..errors import InputError
+from .common import print_json, setup_from_args
 from .info import format_info, scheme_info
 
 
@@ -16,6 +17,8 @@ def add_parser(sub):
                                    "lines (wavelength, cross-section, saturation intensity) and "
                                    "beams (peak intensity, saturation parameter).")
     p.add_argument("file", help="scheme or setup TOML file")
+    p.add_argument("--set", action="append", default=[], metavar="KEY=VALUE",
+                   help="override one setup value, as for run (repeatable)")
     p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     p.set_defaults(handler=handle)
 
@@ -39,10 +42,10 @@ def setup_info(setup):
 
 
 def handle(args):
-    from ..setup_file import setup_from_document
-
-    doc, text = read_toml(args.file)
+    doc, _ = read_toml(args.file)
     if "species" in doc:
+        if args.set:
+            raise InputError("--set changes setups; this file is a scheme", args.file, "--set")
         info = dict(scheme_info(load_scheme(args.file)), kind="scheme")
         if args.json:
             print_json(info)
@@ -50,7 +53,8 @@ def handle(args):
             print(f"{args.file}: a valid scheme\n")
             print(format_info(info))
         return 0
-    info = setup_info(setup_from_document(doc, str(args.file), text_=text))
+    args.setup = args.file
+    info = setup_info(setup_from_args(args))
     if args.json:
         print_json(info)
         return 0

@@ -15,6 +15,14 @@ def add_parser(sub):
     p.set_defaults(handler=handle)
 
 
+# Which saturation intensity is printed: the rate-equation one of lines.py, for light
+# that drives every sublevel pair alike (averaged over the degenerate sublevels).
+ISAT_DEFINITION = (
+    "I_sat is at natural width and averaged over the degenerate sublevels (isotropic light): "
+    "hbar omega G_upper / (sigma0 (1 + g_lower/g_upper)); for J=0 -> J=1 that is 1.5 times "
+    "the two-level value pi h c G / (3 lambda^3) quoted for a cycling transition")
+
+
 def scheme_info(scheme):
     """The ``info`` JSON object (file units) of a scheme."""
     decays = []
@@ -32,7 +40,7 @@ def scheme_info(scheme):
             "J": lv.J, "lifetime_s": (1.0 / G) if G > 0 else None,
             "branching_other": scheme.unlisted_rate(lv.id) / G if G > 0 else 0.0})
     return {"species": scheme.name, "mass_u": scheme.mass / K.amu,
-            "decays": decays, "levels": levels}
+            "decays": decays, "levels": levels, "isat_definition": ISAT_DEFINITION}
 
 
 def format_info(info):
@@ -48,6 +56,7 @@ def format_info(info):
         out.append(f"  {d['upper'] + ' → ' + d['lower']:<14} {d['wavelength_nm']:10.3f} "
                    f"{d['A_per_s']:11.4g} {d['branching']:9.4f} {d['sigma0_m2']:11.4g} "
                    f"{d['isat_mW_cm2']:15.4g}")
+    out += ["", info["isat_definition"]]
     return "\n".join(out)
 
 
