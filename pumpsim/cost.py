@@ -34,7 +34,7 @@ DENSE_COPIES = 3  # problem, the integrator's stacked pieces, their sliced block
 GRID_ROWS = 4  # per term and position: the profiles at two points and two weights
 PANELS_GUESS = 16  # speed panels reduced at once along z, typical of refined runs
 LONG_SECONDS = 30.0  # a run expected to take at least this long is announced
-PROBE_NODES, PROBE_STEPS = 128, 2
+PROBE_NODES, PROBE_STEPS = 128, 4
 PROBE_SECONDS = 0.5  # the probe's batch is made smaller where its arithmetic would take longer
 # Time is measured only where it may be long: a rough figure from the arithmetic per
 # node and step (the combined generator, (terms + 1) m^2 multiply-adds, and about 16
@@ -196,8 +196,9 @@ def _probe(model, propagator, rough, grid):
     ``model``: two timed runs of a small batch of nodes at the mean speed over
     consecutive steps of the first ``grid`` (around its middle, where most beams
     overlap), of PROBE_STEPS and 4 PROBE_STEPS steps (their difference is the
-    stepping alone), after one untimed step that warms up memory. ``rough``
-    (seconds per node and step from the arithmetic) sizes the batch."""
+    stepping alone; the longer run alone where the machine's load hides it), after
+    one untimed step that warms up memory. ``rough`` (seconds per node and step
+    from the arithmetic) sizes the batch."""
     speeds = speeds_of(model.setup.source, model.setup.scheme.mass)
     n = int(min(PROBE_NODES, max(2, PROBE_SECONDS / (rough * (1 + 5 * PROBE_STEPS)))))
     if not propagator.batched:
@@ -211,12 +212,14 @@ def _probe(model, propagator, rough, grid):
         t0 = time.perf_counter()
         propagator.propagate(problem, z)
         seconds.append((time.perf_counter() - t0) * k / max(len(z) - 1, 1))
-    per_step = max(seconds[2] - seconds[1], 0.0) / (3 * PROBE_STEPS * n)
-    per_node = max(seconds[1] / n - PROBE_STEPS * per_step, 0.0)
-    return per_step, per_node
+    if seconds[2] > 1.5 * seconds[1]:
+        per_step = (seconds[2] - seconds[1]) / (3 * PROBE_STEPS * n)
+        return per_step, max(seconds[1] / n - PROBE_STEPS * per_step, 0.0)
+    return seconds[2] / (4 * PROBE_STEPS * n), 0.0
 
 
-def _minutes(seconds):
+def duration(seconds):
+    """A duration in the unit that reads best."""
     if seconds < 120:
         return f"{seconds:.0f} s"
     if seconds < 7200:
@@ -233,12 +236,24 @@ def long_run_notice(cost):
     low, high = cost.seconds
     return Notice(
         "long-run",
-        f"this run will take at least {_minutes(low)}, and about {_minutes(high)} if "
+        f"this run will take at least {duration(low)}, and about {duration(high)} if "
         f"refinement uses all {cost.nodes_max:,} nodes numerics.max_nodes allows "
         f"({cost.states} states, {cost.terms} drive terms, "
         f"{cost.steps:,} steps along z at the first grid, {cost.seconds_per_node_step * 1e6:.3g} "
         "us per node and step measured here); fewer passes or beams, wider waists or a looser "
         "numerics.tolerance make it faster")
+
+
+def estimate_setup(setup):
+    """The :class:`Cost` of simulating ``setup``, with the model and integrator
+    :func:`~pumpsim.simulate.simulate` would build (for ``pumpsim check``)."""
+    from .model import RateModel
+    from .simulate import make_propagator
+    from .sparse_model import SparseRateModel, solver_for
+
+    solver = solver_for(setup)
+    model = (SparseRateModel if solver == "rosenbrock" else RateModel)(setup)
+    return estimate(model, make_propagator(setup.numerics, solver))
 
 
 def check_cost(model, propagator, progress=None):

@@ -19,7 +19,7 @@ from dataclasses import dataclass
 from . import constants as K
 from .errors import InputError
 from .lines import line
-from .model import initial_level_populations, z_range
+from .model import z_range
 from .sources import speeds_of
 
 OPTICAL_NM = (100.0, 20000.0)  # vacuum UV to mid infrared: the lines lasers pump
@@ -34,8 +34,9 @@ F_PER_LAMBDA2_A = 1.4992e4
 # Units that energies are often typed in by mistake: cm^-1 per unit (CODATA).
 ENERGY_SLIPS = (("eV", 8065.544), ("meV", 8.065544), ("THz", 33.35641),
                 ("1000 cm^-1", 1000.0), ("m^-1", 0.01))
-WEAK_S0 = 0.01  # a beam whose peak is below 1 % of I_sat ...
-SMALL_GAIN = 0.1  # ... while the target gains less than this, gets a notice
+WEAK_S0 = 0.01  # a beam whose peak is below 1 % of I_sat,
+FEW_PHOTONS = 1.0  # that scatters fewer photons per atom than this (pumping needs several),
+SMALL_TRANSFER = 0.5  # while the transfer stays below this, gets a notice
 LONG_LIVED = 100.0  # a driven upper level outliving the crossing this many times
 
 
@@ -136,25 +137,24 @@ def setup_notices(setup):
 
 
 def result_notices(result):
-    """Every notice of a result: :func:`setup_notices`, then per beam far below
-    saturation one when the target gained little (a power typed in W into
-    ``power_mW``, a waist in m into ``waist_mm``)."""
+    """Every notice of a result: :func:`setup_notices`, then one per beam far below
+    saturation that scattered less than a photon per atom while the transfer stayed
+    small (a power typed in W into ``power_mW``, a waist in m into ``waist_mm``)."""
     setup = result.setup
     out = setup_notices(setup)
-    start = initial_level_populations(setup)[setup.scheme.index(setup.target)]
-    gain = result.transfer_fraction - start
-    if gain >= SMALL_GAIN:
+    if result.transfer_fraction >= SMALL_TRANSFER:
         return out
     for name, info in result.beam_summary().items():
-        s0 = info["saturation_parameter"]
-        if 0 < s0 < WEAK_S0:
+        s0, photons = info["saturation_parameter"], result.photons_per_atom[name]
+        if 0 < s0 < WEAK_S0 and photons < FEW_PHOTONS:
             b = setup.beam(name)
             out.append(Notice(
                 "weak-beam",
                 f"beam '{name}' peaks at s0 = {s0:.2g} ({100 * s0:.2g} % of its line's "
-                f"saturation intensity) and the target '{setup.target}' gains only {gain:.2g}: "
-                f"is the unit right? power_mW is in milliwatts ({b.power * 1e3:.4g} mW here; "
-                f"s0 = 1 takes {b.power * 1e3 / s0:.3g} mW) and waist_mm in millimetres",
+                f"saturation intensity) and scatters {photons:.2g} photons per atom, while the "
+                f"transfer into '{setup.target}' stays at {result.transfer_fraction:.2f}: is the "
+                f"unit right? power_mW is in milliwatts ({b.power * 1e3:.4g} mW here; s0 = 1 "
+                f"takes {b.power * 1e3 / s0:.3g} mW) and waist_mm in millimetres",
                 f"beam.{name}.power_mW"))
     return out
 

@@ -4,6 +4,7 @@ import shlex
 import sys
 
 from ..lines import line
+from ..plausible import result_notices
 from ..safety import cautions
 from ..simulate import simulate
 from ..sublevel_report import sublevel_summary
@@ -27,17 +28,21 @@ def handle(args):
 
         write_result(args.out, result, "pumpsim " + " ".join(shlex.quote(a) for a in sys.argv[1:]))
     warnings = cautions(setup)
+    notices = result_notices(result)  # likely slips (plausible.py); also "notices" in JSON
     if args.json:
         out = result.to_dict()
         # at the top, so that a script reading transfer_fraction cannot miss them
         out["converged"] = result.numerics.converged
         out["warnings"] = result.numerics.warnings()
         out["cautions"] = warnings
+        out["notices"] = [n.to_dict() for n in notices]
         print_json(out)
-        for w in warnings:
+        for w in warnings + ["WARNING: " + n.message for n in notices]:
             status(w)
     else:
         print(summary(result))
+        for n in notices:
+            print("WARNING: " + n.message)
         print()
         for w in warnings:
             print("CAUTION: " + w)
