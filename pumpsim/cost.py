@@ -10,7 +10,7 @@ the figure and the limit, and says how long a long run will take.
 Memory is counted from the arrays the engine holds at once: per chunk of
 nodes, the base and drive generators with their copies in the integrator
 (dense ``(terms + 1, nodes, m, m)``, or ``(terms + 1, nodes, nnz)`` for the
-sparse model), and per grid position the profiles and the running sums along
+sparse model) and the matrix exponentials' workspace, and per grid position the profiles and the running sums along
 z. Time is measured, not guessed, wherever it may be long: a few steps of the
 run's own integrator on a small batch of nodes, scaled by the steps of the
 first grid and the nodes of the first round (a lower bound) and of
@@ -31,6 +31,7 @@ from .sources import speeds_of
 
 MEMORY_SHARE = 0.5  # of the machine's RAM a single simulation may plan to use
 DENSE_COPIES = 3  # problem, the integrator's stacked pieces, their sliced blocks
+EXPM_COPIES = 12  # the exponentials' workspace: powers, blocks, products, (nodes, S+1, S+1)
 GRID_ROWS = 4  # per term and position: the profiles at two points and two weights
 PANELS_GUESS = 16  # speed panels reduced at once along z, typical of refined runs
 LONG_SECONDS = 30.0  # a run expected to take at least this long is announced
@@ -131,7 +132,7 @@ def _memory(model, steps, dense):
     """Bytes of the arrays held at once for a chunk of nodes and a grid of ``steps``."""
     m, T = model.size, len(model.terms)
     per_node = (m * m if dense else getattr(model, "nnz", m * m)) * (T + 1)
-    chunk = DENSE_COPIES * CHUNK * per_node * 8
+    chunk = (DENSE_COPIES * per_node + EXPM_COPIES * (model.n_states + 1) ** 2) * CHUNK * 8
     along = (steps + 1) * (GRID_ROWS * T + PANELS_GUESS * (m + len(model.setup.scheme.levels) + 1)) * 8
     return float(chunk + along)
 

@@ -71,6 +71,12 @@ def _length(metres):
     return f"{metres * 1e9:.4g} nm"
 
 
+def oscillator_strength(ln):
+    """Absorption oscillator strength ``f`` of a :class:`~pumpsim.lines.Line` from its
+    ``A``, wavelength and degeneracies."""
+    return F_PER_LAMBDA2_A * ln.wavelength**2 * ln.A * ln.g_upper / ln.g_lower
+
+
 def check_driven_line(scheme, beam_name, lower, upper, file, table):
     """Refuse a driven line outside the optical range or stronger than any atom's.
 
@@ -94,7 +100,7 @@ def check_driven_line(scheme, beam_name, lower, upper, file, table):
             f"beam '{beam_name}' drives a line of {_length(ln.wavelength)} (from the energies "
             f"of '{lower}' and '{upper}' in the scheme), outside the optical range "
             f"{OPTICAL_NM[0]:g} nm to {OPTICAL_NM[1] / 1000:g} um; {hint}", *where)
-    f = F_PER_LAMBDA2_A * ln.wavelength**2 * ln.A * ln.g_upper / ln.g_lower
+    f = oscillator_strength(ln)
     if f > F_MAX:
         lifetime = 1.0 / scheme.total_rate(upper)
         raise InputError(

@@ -1,5 +1,7 @@
 """``pumpsim info SCHEME``: per decay its line figures, per level its lifetime."""
 
+import textwrap
+
 from .. import constants as K
 from ..lines import line
 from ..scheme_file import load_scheme
@@ -56,7 +58,7 @@ def format_info(info):
         out.append(f"  {d['upper'] + ' → ' + d['lower']:<14} {d['wavelength_nm']:10.3f} "
                    f"{d['A_per_s']:11.4g} {d['branching']:9.4f} {d['sigma0_m2']:11.4g} "
                    f"{d['isat_mW_cm2']:15.4g}")
-    out += ["", info["isat_definition"]]
+    out += [""] + textwrap.wrap(info["isat_definition"], 90)
     return "\n".join(out)
 
 
