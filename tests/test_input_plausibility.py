@@ -163,6 +163,10 @@ def run_json(tmp_path, scheme=SCHEME, setup=SETUP):
 
 
 def codes(result):
+    """The notices' codes; each message is also the documented one (docs/bad_input.md)."""
+    doc = (ROOT / "docs" / "bad_input.md").read_text(encoding="utf-8")
+    for n in result["notices"]:
+        assert f"`{n['message']}`" in doc, n["message"]
     return [n["code"] for n in result["notices"]]
 
 
