@@ -36,6 +36,7 @@ GRID_ROWS = 4  # per term and position: the profiles at two points and two weigh
 PANELS_GUESS = 16  # speed panels reduced at once along z, typical of refined runs
 LONG_SECONDS = 30.0  # a run expected to take at least this long is announced
 PROBE_NODES, PROBE_STEPS = 128, 4
+MANY_STATES, MANY_STEPS = 50, 2000  # where the long-run notice names levels, waists
 PROBE_SECONDS = 0.5  # the probe's batch is made smaller where its arithmetic would take longer
 # Time is measured only where it may be long: a rough figure from the arithmetic per
 # node and step (the combined generator, (terms + 1) m^2 multiply-adds, and about 16
@@ -235,14 +236,22 @@ def long_run_notice(cost):
     if cost.seconds is None or cost.seconds[0] < LONG_SECONDS:
         return None
     low, high = cost.seconds
+    advice = []  # what drives the cost here, largest first
+    if cost.states > MANY_STATES:
+        advice.append("fewer levels")
+    if cost.terms > cost.states:
+        advice.append("fewer passes or beams")
+    if cost.steps > MANY_STEPS:
+        advice.append("wider waists")
+    advice.append("a looser numerics.tolerance")
     return Notice(
         "long-run",
         f"this run will take at least {duration(low)}, and about {duration(high)} if "
-        f"refinement uses all {cost.nodes_max:,} nodes numerics.max_nodes allows "
-        f"({cost.states} states, {cost.terms} drive terms, "
-        f"{cost.steps:,} steps along z at the first grid, {cost.seconds_per_node_step * 1e6:.3g} "
-        "us per node and step measured here); fewer passes or beams, wider waists or a looser "
-        "numerics.tolerance make it faster")
+        f"refinement uses all {cost.nodes_max:,} nodes that numerics.max_nodes allows "
+        f"({cost.states} states, {cost.terms} drive terms, {cost.steps:,} steps along z at the "
+        f"first grid, {cost.seconds_per_node_step * 1e6:.3g} us per node and step measured "
+        f"here); {', '.join(advice[:-1]) + ' or ' if len(advice) > 1 else ''}{advice[-1]} "
+        "would make it faster")
 
 
 def estimate_setup(setup):
