@@ -10,8 +10,8 @@ the figure and the limit, and says how long a long run will take.
 Memory is counted from the arrays the engine holds at once: per chunk of
 nodes, the base and drive generators with their copies in the integrator
 (dense ``(terms + 1, nodes, m, m)``, or ``(terms + 1, nodes, nnz)`` for the
-sparse model) and the matrix exponentials' workspace, and per grid position the profiles and the running sums along
-z. Time is measured, not guessed, wherever it may be long: a few steps of the
+sparse model) and the matrix exponentials' workspace, and per grid position
+the profiles and the running sums along z. Time is measured, not guessed, wherever it may be long: a few steps of the
 run's own integrator on a small batch of nodes, scaled by the steps of the
 first grid and the nodes of the first round (a lower bound) and of
 ``numerics.max_nodes`` (an upper one).

@@ -6,7 +6,7 @@ wavelengths from energies use CODATA ``h c`` (scipy.constants); oscillator
 strengths of the rubidium D lines are D. A. Steck, *Rubidium 87 D Line Data*
 (values from memory: D1 0.3423, D2 0.6956); the Gaussian beam's peak intensity
 2P / (pi w^2) is the textbook formula (e.g. Foot, *Atomic Physics*, 2005).
-Plausible ranges (optical lines 100 nm to 20 um, f below ~10) are common
+Plausible ranges (optical lines 100 nm to 20 um, f below 100) are common
 practice, no source.
 """
 

@@ -2,13 +2,13 @@
 
 from ..beam_shapes import shape_of
 from ..cost import duration, estimate_setup, long_run_notice
+from ..errors import InputError
 from ..lines import line
 from ..model import initial_level_populations
 from ..plausible import setup_notices
 from ..safety import cautions
 from ..scheme_file import load_scheme
 from ..tomlread import read_toml
-from ..errors import InputError
 from .common import print_json, setup_from_args
 from .info import format_info, scheme_info
 
