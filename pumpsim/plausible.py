@@ -16,7 +16,8 @@ Two kinds of finding, on purpose:
 import math
 from dataclasses import dataclass
 
-from . import constants as K
+from scipy import constants as _c
+
 from .errors import InputError
 from .lines import line
 from .model import z_range
@@ -30,9 +31,9 @@ OPTICAL_NM = (100.0, 20000.0)  # vacuum UV to mid infrared: the lines lasers pum
 # unit slip), not a judgement of close calls: stiff test schemes (1 ns at 500 nm, f ~ 10)
 # stay allowed. Common practice, no source.
 F_MAX = 100.0
-# f = (g_u / g_l) eps0 m_e c lambda^2 A / (2 pi e^2), per m^2 s (Na D2: 589 nm, A = 6.16e7/s,
-# g_u/g_l = 2 gives 0.64; e.g. Foot, Atomic Physics, 2005, section 7.3)
-F_PER_LAMBDA2_A = 1.4992e4
+# f = (g_u / g_l) eps0 m_e c lambda^2 A / (2 pi e^2) (Na D2: 589 nm, A = 6.16e7/s,
+# g_u/g_l = 2 gives 0.64; e.g. Foot, Atomic Physics, 2005, section 7.3), s/m^2
+F_PER_LAMBDA2_A = _c.epsilon_0 * _c.m_e * _c.c / (2 * math.pi * _c.e**2)
 # Units that energies are often typed in by mistake: cm^-1 per unit (CODATA).
 ENERGY_SLIPS = (("eV", 8065.544), ("meV", 8.065544), ("THz", 33.35641),
                 ("1000 cm^-1", 1000.0), ("m^-1", 0.01))
