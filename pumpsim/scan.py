@@ -72,6 +72,7 @@ from .outcome import evaluate
 from .outpaths import OutputError, OutputLock, commit, partial_path, size_text
 from .safety import cautions
 from .schema import FIELDS
+from .setup_file import check_numeric_key
 from .scan_journal import (Journal, Points, check_resumable, journal_header, journal_path,
                            read_journal)
 
@@ -169,8 +170,7 @@ def parse_axis(text, setup) -> Axis:
         raise InputError("a log axis needs START and STOP > 0", **where)
     field = field_of(key)
     initial = key.startswith("source.initial.") and key.count(".") == 2
-    if not initial and (field is None or field.kind is str):
-        raise InputError("only numeric setup values can be scanned (the keys of --set)", **where)
+    check_numeric_key(setup, key, "--vary")  # unknown or text keys: named, with near ones
     if n == 1:
         values = np.array([start])
     else:

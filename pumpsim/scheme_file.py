@@ -1,7 +1,7 @@
 """Load a scheme TOML file (see ``files.md``) into a :class:`~pumpsim.scheme.Scheme`."""
 
 from . import constants as K
-from .errors import InputError
+from .errors import InputError, apart, unknown
 from .hyperfine import LEVEL_KEYS, read_level_structure, read_nuclear_spin
 from .scheme import Decay, Level, Scheme
 from .tomlread import check_keys, number, read_toml, table_list, text
@@ -86,7 +86,7 @@ def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
         lo = text(raw, "lower", file, "decay")
         for key, lid in (("upper", up), ("lower", lo)):
             if lid not in by_id:
-                raise InputError("unknown level", file, "decay", key, lid)
+                raise InputError(unknown("level", lid, list(by_id)), file, "decay", key, lid)
         if (up, lo) in pairs:
             raise InputError(f"decay {up} -> {lo} listed twice", file, "decay", "upper", up)
         pairs.add((up, lo))
@@ -133,11 +133,13 @@ def scheme_from_document(doc: dict, file=None, text_=None) -> Scheme:
         total = sum(d.rate for d in decays if d.upper == lid)
         life = by_id[lid].lifetime
         if mode == "branching" and total * life > 1 + SUM_SLACK:
-            raise InputError(f"branchings sum to {total * life:.6g}, more than 1", file,
+            shown_sum, _ = apart(total * life, 1.0)
+            raise InputError(f"branchings sum to {shown_sum}, more than 1", file,
                              "decay", "branching", lid)
         if mode == "A_per_s" and life is not None and life > (1 + SUM_SLACK) / total:
+            shown_life, shown_limit = apart(life, 1 / total)
             raise InputError(
-                f"lifetime {life:.6g} s is longer than 1/sum(A) = {1 / total:.6g} s",
+                f"lifetime {shown_life} s is longer than 1/sum(A) = {shown_limit} s",
                 file, "level", "lifetime_s", lid)
     return Scheme(name, mass, tuple(levels), tuple(decays), file, doc, text_,
                   nuclear_spin=nuclear_spin)

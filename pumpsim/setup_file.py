@@ -11,10 +11,11 @@ import math
 import tomllib
 from pathlib import Path
 
-from .errors import InputError
+from .errors import InputError, near, unknown
 from .hyperfine import check_component, check_zeeman_data
 from .model import z_range
-from .schema import REQUIRED, fields_of
+from .plausible import check_driven_line
+from .schema import FIELDS, REQUIRED, fields_of
 from .scheme_file import load_scheme
 from .setup import Beam, Numerics, Setup, Source
 from .tomlread import check_keys, read_toml, table_list, text
@@ -68,12 +69,15 @@ def setup_from_document(doc: dict, file=None, scheme=None, text_=None) -> Setup:
     text_ : str or None
         Verbatim file text to keep with the setup.
     """
+    if "scheme" not in doc and {"species", "level", "decay"} & doc.keys():
+        raise InputError("missing required key: this looks like a scheme file, not a setup; "
+                         "give the setup that names it", file, None, "scheme")
     check_keys(doc, TOP_KEYS, file, None, required=("scheme", "target", "source"))
     if scheme is None:
         scheme = _load_named_scheme(doc, file)
     target = text(doc, "target", file, None)
     if target not in scheme.ids:
-        raise InputError("unknown level", file, None, "target", target)
+        raise InputError(unknown("level", target, scheme.ids), file, None, "target", target)
     source = _source(doc["source"], file, scheme)
     beams = tuple(_beam(raw, i, file, scheme) for i, raw in enumerate(table_list(doc, "beam", file, required=False)))
     names = [b.name for b in beams]
@@ -151,7 +155,8 @@ def _source(raw, file, scheme):
         pairs = []
         for lid, frac in initial.items():
             if lid not in scheme.ids:
-                raise InputError("unknown level", file, "source.initial", lid, lid)
+                raise InputError(unknown("level", lid, scheme.ids), file, "source.initial", lid,
+                                 lid)
             if isinstance(frac, bool) or not isinstance(frac, (int, float)) or not math.isfinite(frac) or frac < 0:
                 raise InputError(f"must be a fraction >= 0, got {frac!r}", file, "source.initial", lid, lid)
             pairs.append((lid, float(frac)))
@@ -180,13 +185,14 @@ def _beam(raw, i, file, scheme):
     lower, upper = tr
     for lid in tr:
         if lid not in scheme.ids:
-            raise InputError("unknown level", file, table, "transition", lid)
+            raise InputError(unknown("level", lid, scheme.ids), file, table, "transition", lid)
     if scheme.level(upper).energy <= scheme.level(lower).energy:
         raise InputError(f"upper level '{upper}' must lie above lower level '{lower}'",
                          file, table, "transition", upper)
     if scheme.decay(upper, lower) is None:
         raise InputError(f"the scheme lists no decay {upper} -> {lower}, so the line has no "
                          "strength to drive", file, table, "transition", upper)
+    check_driven_line(scheme, name, lower, upper, file, table)
     v = _read_fields(raw, fields, file, table)
     if v["reference_F"] is not None:
         def fail(message):
@@ -218,7 +224,7 @@ def parse_value(value):
         return value
     try:
         return tomllib.loads(f"v = {value}")["v"]
-    except tomllib.TOMLDecodeError:
+    except (tomllib.TOMLDecodeError, RecursionError):  # nested thousands deep: text too
         return value
 
 
@@ -237,8 +243,9 @@ def with_value(setup: Setup, key: str, value) -> Setup:
         beams = doc.get("beam", [])
         match = [b for b in beams if b.get("name") == parts[1]]
         if not match:
-            names = ", ".join(str(b.get("name")) for b in beams) or "none"
-            raise InputError(f"no beam named {parts[1]!r} (beams: {names})", file, "beam", key)
+            names = [str(b.get("name")) for b in beams]
+            raise InputError(unknown("beam", parts[1], names).replace(
+                "unknown beam", f"no beam named {parts[1]!r}", 1), file, "beam", key)
         node, leaf = match[0], parts[2]
     else:
         node = doc
@@ -254,6 +261,39 @@ def with_value(setup: Setup, key: str, value) -> Setup:
         node[leaf] = value
     scheme = None if key == "scheme" else setup.scheme
     return setup_from_document(doc, file, scheme=scheme, text_=setup.text)
+
+
+def setup_keys(setup: Setup, numeric=False) -> list:
+    """Every ``--set`` key of ``setup`` (``target``, ``source.temperature_K``,
+    ``beam.pump.power_mW``, ``source.initial.g``, ...); with ``numeric``, only
+    those that take numbers: what a scan can vary."""
+    keys = [] if numeric else ["scheme", "target"]
+    for f in FIELDS:
+        if numeric and f.kind not in (float, int):
+            continue
+        if f.table == "beam":
+            keys += [f"beam.{b.name}.{f.key}" for b in setup.beams]
+        else:
+            keys.append(f"{f.table}.{f.key}" if f.table else f.key)
+    return keys + [f"source.initial.{lid}" for lid in setup.scheme.ids]
+
+
+def check_numeric_key(setup: Setup, key: str, table: str) -> None:
+    """Raise an :class:`InputError` (naming ``table``, e.g. ``--vary``) unless
+    ``key`` is a ``--set`` key of ``setup`` that takes numbers; an unknown key
+    is answered with the near ones (``did you mean``)."""
+    if key in setup_keys(setup, numeric=True):
+        return
+    if key in setup_keys(setup):
+        raise InputError("takes text, not numbers: only numeric setup values can be varied",
+                         setup.path, table, key)
+    numeric = setup_keys(setup, numeric=True)
+    reason = unknown("key", key, numeric, None)
+    if not near(key, numeric):
+        beams = ", ".join(b.name for b in setup.beams) or "none"
+        reason += (f" (numeric keys are source.KEY, beam.NAME.KEY with beams {beams}, "
+                   "numerics.KEY, field.B_gauss and source.initial.LEVEL, as for --set)")
+    raise InputError(reason, setup.path, table, key)
 
 
 def setup_to_toml(setup: Setup) -> str:

@@ -3,6 +3,7 @@
 import numpy as np
 
 from .basis import SublevelBasis
+from .cost import check_cost
 from .ensemble import EnsembleIntegrator
 from .errors import NumericalError
 from .model import RateModel
@@ -41,6 +42,7 @@ def simulate(setup, basis=None, progress=None) -> Result:
     model = (SparseRateModel if solver == "rosenbrock" else RateModel)(setup, basis)
     num = setup.numerics
     propagator = make_propagator(num, solver)
+    check_cost(model, propagator, progress)  # refuse what cannot fit; announce a long run
     ens = EnsembleIntegrator(model, propagator, num.tolerance, num.max_nodes, progress).run()
     levels = setup.scheme.ids + ("other",)
     L, B = len(levels), len(setup.beams)

@@ -4,7 +4,12 @@ import math
 import tomllib
 from pathlib import Path
 
-from .errors import InputError
+from .errors import InputError, unknown
+
+# Deepest nesting of tables and arrays a file may have. Schemes and setups use
+# three levels ([[beam]] > reference_F > value); a parser walks nesting by
+# recursion, so files thousands deep would otherwise end in a RecursionError.
+MAX_DEPTH = 32
 
 
 def read_toml(path):
@@ -23,9 +28,30 @@ def read_toml(path):
         raise InputError(f"file is not UTF-8 text (invalid byte at offset {exc.start})",
                          file=str(p)) from None
     try:
-        return tomllib.loads(text), text
+        doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML: {exc}", file=str(p)) from None
+    except RecursionError:
+        doc = None
+    if doc is None or _depth(doc) > MAX_DEPTH:
+        raise InputError(f"nested too deeply (tables or arrays more than {MAX_DEPTH} levels "
+                         "deep)", file=str(p))
+    return doc, text
+
+
+def _depth(value):
+    """Levels of nesting of tables and arrays in ``value``, counted without recursion."""
+    deepest, stack = 0, [(value, 0)]
+    while stack:
+        node, depth = stack.pop()
+        if isinstance(node, dict):
+            node = node.values()
+        elif not isinstance(node, list):
+            continue
+        deepest = max(deepest, depth + 1)
+        if depth + 1 <= MAX_DEPTH:
+            stack.extend((child, depth + 1) for child in node)
+    return deepest
 
 
 def check_keys(table: dict, allowed, file, name, required=()):
@@ -34,9 +60,7 @@ def check_keys(table: dict, allowed, file, name, required=()):
         raise InputError(f"must be a table, got {type(table).__name__}", file, name)
     for key in table:
         if key not in allowed:
-            raise InputError(
-                f"unknown key (allowed: {', '.join(sorted(allowed))})", file, name, key
-            )
+            raise InputError(unknown("key", key, sorted(allowed), "allowed"), file, name, key)
     for key in required:
         if key not in table:
             raise InputError("missing required key", file, name, key)

@@ -38,6 +38,7 @@ import pytest
 from hypothesis import HealthCheck, assume, event, given, settings
 from hypothesis import strategies as st
 
+import pumpsim.cost
 from pumpsim import scheme_file as S
 from pumpsim.cli import main
 
@@ -513,6 +514,9 @@ def test_setup_value_ranges(tmp_path_factory, data, f, legal):
         assert rc == 2 and f"key '{f.key}'" in msg
     elif f.key in ("start_mm", "end_mm") and rc == 2:
         assert "integration range is empty" in msg  # start after end: a pair, not a value
+    elif f.key == "passes" and rc == 2:
+        # each value is legal, the whole may not fit: many passes refused for memory
+        assert "of memory, over the limit" in msg and f"key '{f.key}'" in msg
     else:
         assert rc == 0, err
         assert_physical(out)
@@ -557,13 +561,35 @@ def test_scheme_value_ranges(tmp_path_factory, data, case, legal):
     rc, out, err = cli("run", setup, "--json", *CHEAP)
     msg = assert_contract(rc, out, err, [str(setup), str(scheme)], {})
     event(f"{key} {'inside' if legal else 'outside'}: exit {rc}")
-    if legal:
+    if legal and not _drivable(doc):
+        # a legal scheme whose pumped line no laser drives or no atom has: the setup is
+        # refused, the scheme alone checks
+        assert rc == 2 and "key 'transition'" in msg, err
+        assert cli("check", scheme)[0] == 0
+    elif legal:
         assert rc == 0, err
         assert_physical(out)
     elif key == "energy_cm" and "[decay] key 'upper'" in msg:
         assert "must lie above" in msg or "apart" in msg  # too close to the lower level
     else:
         assert rc == 2 and f"key '{key}'" in msg
+
+
+def _drivable(doc):
+    """Whether the pumped line g -> e of a scheme document is one a laser drives and an
+    atom has: 100 nm to 20 um (common practice, no source), absorption oscillator
+    strength f = (g_e/g_g) eps0 m_e c lambda^2 A / (2 pi e^2) at most 100 (the
+    standard relation, e.g. Foot, Atomic Physics, 2005; the strongest lines have f ~ 2)."""
+    from scipy import constants as C
+
+    levels = {lv["id"]: lv for lv in doc["level"]}
+    g, e = levels["g"], levels["e"]
+    lam = 1e-2 / (e["energy_cm"] - g["energy_cm"])
+    dec = next(d for d in doc["decay"] if d["upper"] == "e" and d["lower"] == "g")
+    A = dec["A_per_s"] if "A_per_s" in dec else dec["branching"] / e["lifetime_s"]
+    f = ((2 * e["J"] + 1) / (2 * g["J"] + 1) * C.epsilon_0 * C.m_e * C.c * lam**2 * A
+         / (2 * math.pi * C.e**2))
+    return 100e-9 <= lam <= 20e-6 and f <= 100
 
 
 NOT_TOML = [
@@ -747,7 +773,7 @@ DOCUMENTED = [  # (kind of bad input, files, extra arguments, exact stderr line)
      "setup.toml [beam]: must be an array of tables written [[beam]]"),
     ("unknown key, wrong unit", _edit("setup", lambda d: d["beam"][0].update(
         power_W=d["beam"][0].pop("power_mW"))), [],
-     "setup.toml [beam 'pump'] key 'power_W': unknown key (allowed: angle_deg, detuning_MHz, "
+     "setup.toml [beam 'pump'] key 'power_W': unknown key; did you mean 'power_mW'? (allowed: angle_deg, detuning_MHz, "
      "linewidth_MHz, name, passes, polarization, position_mm, power_mW, reference_F, "
      "transition, waist_across_mm, waist_mm)"),
     ("missing required key", _edit("setup", _drop("beam", 0, "waist_mm")), [],
@@ -775,14 +801,14 @@ DOCUMENTED = [  # (kind of bad input, files, extra arguments, exact stderr line)
     ("initial fractions", _edit("setup", _source(initial={"g": 0.5, "m": 0.4})), [],
      "setup.toml [source.initial]: fractions sum to 0.9, not 1"),
     ("unknown level", _edit("setup", _beam(transition=["g", "é"])), [],
-     "setup.toml [beam 'pump'] key 'transition' level 'é': unknown level"),
+     "setup.toml [beam 'pump'] key 'transition' level 'é': unknown level; did you mean 'e'? (levels: g, m, e)"),
     ("unknown target", _edit("setup", lambda d: d.update(target="M")), [],
-     "setup.toml key 'target' level 'M': unknown level"),
+     "setup.toml key 'target' level 'M': unknown level; did you mean 'm'? (levels: g, m, e)"),
     ("duplicate beam name", _edit("setup", lambda d: d["beam"].append(dict(d["beam"][0]))), [],
      "setup.toml [beam] key 'name': beam name 'pump' used twice"),
     ("control character in a key", _edit("setup", lambda d: d["source"].update(
         {"speed\tm_s": 1.0})), [],
-     "setup.toml [source] key 'speed\\tm_s': unknown key (allowed: divergence_rms_mrad, "
+     "setup.toml [source] key 'speed\\tm_s': unknown key; did you mean 'speed_m_s'? (allowed: divergence_rms_mrad, "
      "initial, kind, speed_m_s, speed_spread_m_s, temperature_K, width_rms_mm)"),
     ("scheme file missing", _edit("setup", lambda d: d.update(scheme="schemes.toml")), [],
      "setup.toml key 'scheme': scheme file not found: schemes.toml"),
@@ -792,7 +818,7 @@ DOCUMENTED = [  # (kind of bad input, files, extra arguments, exact stderr line)
     ("duplicate level id", _edit("scheme", lambda d: d["level"].append(dict(d["level"][0]))),
      [], "scheme.toml [level] key 'id' level 'g': duplicate level id"),
     ("decay to an unknown level", _edit("scheme", lambda d: d["decay"][0].update(lower="G")),
-     [], "scheme.toml [decay] key 'lower' level 'G': unknown level"),
+     [], "scheme.toml [decay] key 'lower' level 'G': unknown level; did you mean 'g'? (levels: g, m, e)"),
     ("branchings over 1", _edit("scheme", lambda d: d["decay"][0].update(branching=0.7)), [],
      "scheme.toml [decay] key 'branching' level 'e': branchings sum to 1.1, more than 1"),
     ("lifetime longer than 1/sum(A)", _edit("scheme", lambda d: (
@@ -814,13 +840,39 @@ DOCUMENTED = [  # (kind of bad input, files, extra arguments, exact stderr line)
      "setup.toml [beam] key 'beam.probe.power_mW': no beam named 'probe' (beams: pump)"),
     ("--set: no '='", _edit("setup", lambda d: None), ["--set", "beam.pump.power_mW"],
      "setup.toml [--set]: --set needs KEY=VALUE, got 'beam.pump.power_mW'"),
+    ("nested thousands deep", _raw("setup", "x = " + "[" * 5000 + "]" * 5000 + "\n"), [],
+     "setup.toml: nested too deeply (tables or arrays more than 32 levels deep)"),
+    ("branchings a hair over 1", _edit("scheme", lambda d: d["decay"][1].update(
+        branching=0.4000001)), [],
+     "scheme.toml [decay] key 'branching' level 'e': branchings sum to 1.0000001, more than 1"),
+    ("a scheme where a setup belongs", _raw("setup", _emit(SCHEME)), CHEAP,
+     "setup.toml key 'scheme': missing required key: this looks like a scheme file, not a "
+     "setup; give the setup that names it"),
+    ("energies typed in eV", _edit("scheme", lambda d: (
+        [lv.update(energy_cm=round(lv["energy_cm"] / 8065.544, 4)) for lv in d["level"]],
+        d["decay"][1].pop("wavelength_nm"))), [],
+     "setup.toml [beam 'pump'] key 'transition' level 'e': beam 'pump' drives a line of "
+     "4.033 mm (from the energies of 'g' and 'e' in the scheme), outside the optical range "
+     "100 nm to 20 um; were the energies typed in eV (the line would be at 500 nm) or "
+     "1000 cm^-1 (the line would be at 4033 nm) instead of cm^-1?"),
+    ("lifetime no atom has", _edit("scheme", lambda d: d["level"][2].update(lifetime_s=2e-14)),
+     [], "setup.toml [beam 'pump'] key 'transition' level 'e': beam 'pump' drives a line whose "
+         "A = 3e+13 1/s at 500 nm means an oscillator strength f = 3.37e+05, above 100, "
+         "which no atomic line comes near (the strongest have about 2): is the lifetime of 'e' (2e-14 s) in "
+         "seconds and A_per_s in 1/s?"),
+    ("more memory than the machine has", _edit("setup", _beam(passes=100)), [],
+     "setup.toml [beam 'pump'] key 'passes': the simulation needs about 50 GiB of memory, over "
+     "the limit 8 GiB (50% of this machine's RAM): 4 states, 100 drive terms (the passes of all "
+     "beams), 32 steps along z; use fewer passes, beams or levels, or wider waists"),
 ]
 
 
 @pytest.mark.parametrize("kind, make, extra, message", DOCUMENTED,
                          ids=[c[0] for c in DOCUMENTED])
 def test_documented_messages(tmp_path, monkeypatch, kind, make, extra, message):
-    """Each row of docs/bad_input.md: exit 2 and exactly the documented line."""
+    """Each row of docs/bad_input.md: exit 2 and exactly the documented line (on a
+    machine of 16 GiB, whatever this one has, for the memory limit)."""
+    monkeypatch.setattr(pumpsim.cost, "machine_memory", lambda: 16 * 2**30)
     for name, content in make().items():
         write(tmp_path / name, content)
     monkeypatch.chdir(tmp_path)

@@ -24,6 +24,28 @@ def load_scheme_doc(tmp_path, doc):
 
 # -- (c) cross-section and saturation intensity --------------------------------------
 
+
+def test_info_says_which_isat_it_prints(tmp_path):
+    """info's I_sat for J=0 -> J=1 is the degeneracy-averaged one, 1.5 times the two-level
+    pi h c G / (3 lambda^3) (Foot, Atomic Physics, 2005, eq. 7.86; Steck's alkali D-line
+    notes quote both), and info says so in words and in its JSON."""
+    import json
+
+    from test_fuzz_inputs import cli
+
+    E_cm, lifetime = 16000.0, 2.6e-8
+    path = write_toml(tmp_path / "scheme.toml", scheme_doc(
+        [level("g", 0, 0), level("e", E_cm, 1)], [decay("e", "g", A_per_s=1 / lifetime)]))
+    lam = 1 / (100 * E_cm)
+    two_level = math.pi * C.h * C.c / (3 * lam**3 * lifetime)  # W/m^2
+    rc, out, err = cli("info", path, "--json")
+    assert rc == 0, err
+    info = json.loads(out)
+    assert info["decays"][0]["isat_mW_cm2"] == pytest.approx(1.5 * two_level * 0.1, rel=1e-9)
+    assert "1.5 times the two-level value" in info["isat_definition"]
+    rc, out, _ = cli("info", path)
+    assert "averaged over the degenerate sublevels" in out
+
 @pytest.mark.parametrize("E_cm, lifetime", [(16000.0, 2.6e-8), (24000.0, 5e-9), (12500.0, 1e-7)])
 def test_sigma0_two_level_j0_j1_is_3_lambda2_over_2pi(tmp_path, E_cm, lifetime):
     """sigma0 = 3 lambda^2 / (2 pi) for J=0 -> J=1 with natural width

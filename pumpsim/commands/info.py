@@ -1,5 +1,7 @@
 """``pumpsim info SCHEME``: per decay its line figures, per level its lifetime."""
 
+import textwrap
+
 from .. import constants as K
 from ..lines import line
 from ..scheme_file import load_scheme
@@ -13,6 +15,14 @@ def add_parser(sub):
     p.add_argument("scheme", help="scheme TOML file")
     p.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     p.set_defaults(handler=handle)
+
+
+# Which saturation intensity is printed: the rate-equation one of lines.py, for light
+# that drives every sublevel pair alike (averaged over the degenerate sublevels).
+ISAT_DEFINITION = (
+    "I_sat is at natural width and averaged over the degenerate sublevels (isotropic light): "
+    "hbar omega G_upper / (sigma0 (1 + g_lower/g_upper)); for J=0 -> J=1 that is 1.5 times "
+    "the two-level value pi h c G / (3 lambda^3) quoted for a cycling transition")
 
 
 def scheme_info(scheme):
@@ -32,7 +42,7 @@ def scheme_info(scheme):
             "J": lv.J, "lifetime_s": (1.0 / G) if G > 0 else None,
             "branching_other": scheme.unlisted_rate(lv.id) / G if G > 0 else 0.0})
     return {"species": scheme.name, "mass_u": scheme.mass / K.amu,
-            "decays": decays, "levels": levels}
+            "decays": decays, "levels": levels, "isat_definition": ISAT_DEFINITION}
 
 
 def format_info(info):
@@ -48,6 +58,7 @@ def format_info(info):
         out.append(f"  {d['upper'] + ' → ' + d['lower']:<14} {d['wavelength_nm']:10.3f} "
                    f"{d['A_per_s']:11.4g} {d['branching']:9.4f} {d['sigma0_m2']:11.4g} "
                    f"{d['isat_mW_cm2']:15.4g}")
+    out += [""] + textwrap.wrap(info["isat_definition"], 90)
     return "\n".join(out)
 
 

@@ -5,6 +5,7 @@ from contextlib import nullcontext
 from ..lines import line
 from ..outpaths import OutputError, OutputLock, check_output
 from ..progress import RunProgress
+from ..plausible import result_notices
 from ..safety import cautions
 from ..simulate import simulate
 from ..sublevel_report import sublevel_summary
@@ -57,17 +58,21 @@ def file_estimate(setup):
 def show(args, setup, result):
     """The result on stdout: readable, or one JSON object."""
     warnings = cautions(setup)
+    notices = result_notices(result)  # likely slips (plausible.py); also "notices" in JSON
     if args.json:
         out = result.to_dict()
         # at the top, so that a script reading transfer_fraction cannot miss them
         out["converged"] = result.numerics.converged
         out["warnings"] = result.numerics.warnings()
         out["cautions"] = warnings
+        out["notices"] = [n.to_dict() for n in notices]
         print_json(out)
-        for w in warnings:
+        for w in warnings + ["WARNING: " + n.message for n in notices]:
             status(w)
     else:
         print(summary(result))
+        for n in notices:
+            print("WARNING: " + n.message)
         print()
         for w in warnings:
             print("CAUTION: " + w)
