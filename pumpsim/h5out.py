@@ -36,7 +36,8 @@ def write_inputs(f, setup):
 
 
 def write_sublevels(f, rep):
-    """Group ``sublevels``: labels, final populations, populations along z, exposure, dark."""
+    """Group ``sublevels``: labels, final populations, populations along z, exposure,
+    dark, and the target's sublevels."""
     g = f.create_group("sublevels")
     g.create_dataset("labels", data=list(rep.labels), dtype=STR)
     g.create_dataset("level_index", data=rep.level_of)
@@ -47,6 +48,8 @@ def write_sublevels(f, rep):
     g.create_dataset("exposure", data=rep.exposure).attrs["units"] = "excitations per atom"
     g.create_dataset("dark", data=rep.dark)
     g.attrs["dark_fraction"] = rep.dark_fraction
+    if rep.target is not None:  # which sublevels the transfer fraction counts
+        g.create_dataset("target", data=rep.target)
 
 
 def h5_bytes(fill) -> bytes:

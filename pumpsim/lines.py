@@ -52,9 +52,20 @@ class Line:
         return (self.g_upper / self.g_lower) * lam**2 / (2 * math.pi) * self.A / self.gamma(laser_linewidth)
 
     def saturation_intensity(self) -> float:
-        """``hbar omega G_k / (sigma0 (1 + g_i/g_k))`` at natural width, W/m^2."""
+        """``hbar omega G_k / (sigma0 (1 + g_i/g_k))`` at natural width, W/m^2: the
+        whole fine-structure level under isotropic light (level mode's figure)."""
         return K.hbar * self.omega * self.G_upper / (
             self.sigma0() * (1 + self.g_lower / self.g_upper))
+
+    def pair_saturation_intensity(self, strength) -> float:
+        """Saturation intensity of one sublevel pair, W/m^2, in the two-level
+        convention ``s = I/I_sat = 2 Omega^2/Gamma^2``: ``hbar omega G_k / (2 sigma)``
+        with the pair's cross-section ``sigma = strength * sigma0`` at natural width
+        (``strength`` as in :class:`~pumpsim.basis.Coupling`, polarization share
+        included). For a closed stretched pair (``strength * sigma0 = 3 lambda^2/(2 pi)``)
+        it is the cycling-transition figure ``pi h c G_k / (3 lambda^3)``; with
+        ``strength = S_FF'`` it is the hyperfine component's figure under isotropic light."""
+        return K.hbar * self.omega * self.G_upper / (2 * strength * self.sigma0())
 
 
 def line(scheme, lower: str, upper: str) -> Line:

@@ -124,7 +124,7 @@ def setup_notices(setup):
     driven upper level that outlives the crossing many times."""
     out = []
     scheme, crossing = setup.scheme, transit_time(setup)
-    rate = scheme.total_rate(setup.target)
+    rate = scheme.total_rate(setup.target_level)
     if rate > 0 and 1.0 / rate < crossing:
         out.append(Notice(
             "short-lived-target",

@@ -6,6 +6,7 @@ import numpy as np
 
 from .beam_shapes import shape_of
 from .lines import line
+from .sublevel_report import LEVEL_CONVENTION
 
 CONSERVATION_LIMIT = 1e-9  # every node's populations sum to 1 within this, or the run is flagged
 
@@ -106,7 +107,7 @@ class Result:
     final_populations : dict
         Level id (and ``other``) -> ensemble-mean fraction at the end.
     transfer_fraction : float
-        Final population of the target level.
+        Final population of the target (its sublevels' in sublevel mode).
     photons_per_atom : dict
         Beam name -> net absorbed photons per atom.
     deflection : dict
@@ -136,13 +137,18 @@ class Result:
     sublevels: object = None
 
     def beam_summary(self):
-        """Per beam: peak intensity (W/m^2) and on-resonance saturation parameter."""
+        """Per beam: peak intensity (W/m^2) and on-resonance saturation parameter of
+        the line's level figure; in sublevel mode also its strongest pair's."""
         out = {}
         for b in self.setup.beams:
             peak = shape_of(b).peak_intensity
             isat = line(self.setup.scheme, b.lower, b.upper).saturation_intensity()
             out[b.name] = {"peak_intensity_mW_cm2": peak * 0.1, "saturation_parameter": peak / isat,
                            "power_mW": b.power * 1e3}
+            if self.sublevels is not None and self.sublevels.saturation:  # docs/sublevel.md
+                out[b.name].update(saturation_intensity_mW_cm2=isat * 0.1,
+                                   saturation_convention=LEVEL_CONVENTION,
+                                   **self.sublevels.saturation[b.name])
         return out
 
     def to_dict(self):
@@ -160,4 +166,6 @@ class Result:
             out["sublevel_populations"] = self.sublevels.populations()
             out["dark_fraction"] = self.sublevels.dark_fraction
             out["dark_sublevels"] = self.sublevels.dark_populations()
+            out["target_sublevels"] = [lab for lab, t in zip(self.sublevels.labels,
+                                                             self.sublevels.target) if t]
         return out

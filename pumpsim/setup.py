@@ -9,6 +9,7 @@ from dataclasses import dataclass, field
 
 from .polarization import Polarization
 from .scheme import Scheme
+from .targets import parse_target
 
 
 @dataclass(frozen=True)
@@ -119,7 +120,8 @@ class Setup:
     ----------
     scheme : Scheme
     target : str
-        Level whose final population is the transfer fraction.
+        What the transfer fraction is the final population of: a level id, or
+        in sublevel mode sublevels of one level (:mod:`pumpsim.targets`).
     source : Source
     beams : tuple of Beam
     numerics : Numerics
@@ -146,6 +148,16 @@ class Setup:
     text: str | None = field(default=None, compare=False, repr=False)
     mode: str = "level"
     magnetic_field: float = 0.0
+
+    @property
+    def goal(self):
+        """The parsed :class:`~pumpsim.targets.Target`."""
+        return parse_target(self.scheme, self.target)
+
+    @property
+    def target_level(self) -> str:
+        """The level the target lies in (the target itself in level mode)."""
+        return self.goal.level
 
     def beam(self, name: str) -> Beam:
         """The beam called ``name``."""

@@ -18,6 +18,7 @@ from .plausible import check_driven_line
 from .schema import FIELDS, REQUIRED, fields_of
 from .scheme_file import load_scheme
 from .setup import Beam, Numerics, Setup, Source
+from .targets import TargetError, parse_target
 from .tomlread import check_keys, read_toml, table_list, text
 from .tomlwrite import dumps
 
@@ -76,8 +77,7 @@ def setup_from_document(doc: dict, file=None, scheme=None, text_=None) -> Setup:
     if scheme is None:
         scheme = _load_named_scheme(doc, file)
     target = text(doc, "target", file, None)
-    if target not in scheme.ids:
-        raise InputError(unknown("level", target, scheme.ids), file, None, "target", target)
+    goal = _target(target, scheme, file)
     source = _source(doc["source"], file, scheme)
     beams = tuple(_beam(raw, i, file, scheme) for i, raw in enumerate(table_list(doc, "beam", file, required=False)))
     names = [b.name for b in beams]
@@ -86,7 +86,20 @@ def setup_from_document(doc: dict, file=None, scheme=None, text_=None) -> Setup:
             raise InputError(f"beam name {n!r} used twice", file, "beam", "name")
     numerics = _numerics(doc.get("numerics", {}), file, beams)
     mode = _mode(doc, file, scheme)
+    if not goal.whole_level and mode["mode"] != "sublevel":
+        raise InputError("names sublevels, which only sublevel mode resolves: add "
+                         "mode = \"sublevel\" or target the whole level "
+                         f"'{goal.level}'", file, None, "target", target)
     return Setup(scheme, target, source, beams, numerics, file, doc, text_, **mode)
+
+
+def _target(target, scheme, file):
+    """The parsed target (a level id, or sublevels as in :mod:`pumpsim.targets`)."""
+    try:
+        return parse_target(scheme, target)
+    except TargetError as exc:
+        plain = "=" not in target  # a mistyped level id is named as a level, as elsewhere
+        raise InputError(str(exc), file, None, "target", target if plain else None) from None
 
 
 def _mode(doc, file, scheme):

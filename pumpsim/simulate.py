@@ -63,7 +63,9 @@ def simulate(setup, basis=None, progress=None) -> Result:
     sublevels = None
     if isinstance(model.basis, SublevelBasis):
         sublevels = sublevel_report(model, propagator, ens.nodes, ens.z)
-    return Result(setup, tuple(levels), final, final[setup.target],
+    goal = setup.goal
+    transfer = final[goal.level] if goal.whole_level else sublevels.target_population
+    return Result(setup, tuple(levels), final, transfer,
                   {n: float(x) for n, x in zip(names, ens.values[L:L + B])},
                   {n: float(x) for n, x in zip(names, ens.values[L + B:])},
                   ens.z, ens.profile, ens.nodes, report, sublevels)

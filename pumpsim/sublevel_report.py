@@ -43,6 +43,14 @@ class SublevelReport:
         Mean number of excitations an atom held in the sublevel would undergo.
     dark : ndarray of bool (S,)
         Dark sublevels (module docstring).
+    target : ndarray of bool (S,)
+        Sublevels of the setup's target.
+    coupled : ndarray of bool (S,)
+        Sublevels some beam's polarization couples to an upper sublevel at all
+        (a dark one that is not is dark by polarization; one that is, is dark
+        because no beam is tuned to its hyperfine level).
+    saturation : dict
+        Beam name -> :func:`pair_saturation` of its strongest driven pair.
     """
 
     labels: tuple
@@ -51,6 +59,14 @@ class SublevelReport:
     profile: np.ndarray
     exposure: np.ndarray
     dark: np.ndarray
+    target: np.ndarray = None
+    coupled: np.ndarray = None
+    saturation: dict = None
+
+    @property
+    def target_population(self) -> float:
+        """Final population of the target's sublevels."""
+        return float(self.final[self.target].sum())
 
     @property
     def dark_fraction(self) -> float:
@@ -78,6 +94,35 @@ def exposures(model: SparseRateModel, v, a, y0, weight) -> np.ndarray:
             per_coupling = weight[sl] @ model.rates(t, v[sl], a[sl], y0[sl])
             np.add.at(out, lower, along[t] * per_coupling)
     return out
+
+
+PAIR_CONVENTION = ("two-level: s = I/I_sat = 2 Omega^2/Gamma^2 of the strongest driven "
+                   "sublevel pair, I_sat = hbar omega Gamma/(2 sigma_pair)")
+LEVEL_CONVENTION = "fine-structure level, isotropic light (level mode's I_sat)"
+
+
+def pair_saturation(model, beam_index) -> dict:
+    """The sublevel pair a beam drives hardest and its saturation figures.
+
+    The pair with the largest ``strength / (1 + (2 Delta/gamma)^2)`` at the
+    beam's detuning for atoms at rest (``gamma`` the line's width with the
+    laser's), reported with its own ``I_sat`` (:meth:`~pumpsim.lines.Line.
+    pair_saturation_intensity`) and ``s`` at the beam's peak intensity.
+    """
+    b, ln = model.setup.beams[beam_index], model.lines[beam_index]
+    cs = model.basis.couplings(b)
+    if not cs:
+        return {}
+    gamma = ln.gamma(b.linewidth)
+    lorentz = [1 / (1 + (4 * np.pi * (b.detuning - c.shift) / gamma) ** 2) for c in cs]
+    best = max(range(len(cs)), key=lambda j: cs[j].strength * lorentz[j])
+    c = cs[best]
+    isat = ln.pair_saturation_intensity(c.strength)
+    lab = model.basis.labels
+    return {"pair": f"{lab[c.lower]} -> {lab[c.upper]}",
+            "pair_saturation_intensity_mW_cm2": isat * 0.1,
+            "pair_saturation_parameter": model.shapes[beam_index].peak_intensity / isat,
+            "pair_convention": PAIR_CONVENTION}
 
 
 def sublevel_report(model, propagator, nodes, z) -> SublevelReport:
@@ -111,26 +156,52 @@ def sublevel_report(model, propagator, nodes, z) -> SublevelReport:
     driven = np.isin(level_of, [model.setup.scheme.index(b.lower) for b in model.setup.beams])
     bright = exposure[driven].max() if driven.any() else 0.0
     dark = driven & (exposure < DARK_RELATIVE * bright)
+    coupled = np.zeros(S - 1, dtype=bool)
+    for b in model.setup.beams:
+        coupled[[c.lower for c in basis.couplings(b)]] = True
+    target = model.setup.goal.mask(basis)[: S - 1]
+    saturation = {b.name: pair_saturation(model, i) for i, b in enumerate(model.setup.beams)}
     return SublevelReport(basis.labels[: S - 1], level_of, profile[-1, : S - 1],
-                          profile[:, : S - 1], exposure, dark)
+                          profile[:, : S - 1], exposure, dark, target, coupled, saturation)
+
+
+def dark_verdict(report, s) -> str:
+    """Why sublevel ``s`` is dark and whether that is wanted."""
+    if report.target is not None and report.target[s]:
+        return "the target: wanted"
+    if report.coupled is not None and report.coupled[s]:
+        return "leak: no beam is tuned to its hyperfine level; add a repump"
+    return ("leak: the polarization cannot excite it; another polarization (or a second "
+            "beam) reaches it")
 
 
 def sublevel_summary(report: SublevelReport, shown=0.001) -> list:
-    """Readable lines: populated sublevels, then the dark ones and what to do."""
-    lines = ["final sublevel populations (those above 0.001):"]
-    for lab, p in report.populations().items():
+    """Readable lines: populated sublevels, then the dark ones, each said to be the
+    target (wanted) or a leak and what cures it, then the pair saturation per beam."""
+    lines = ["final sublevel populations (those above 0.001; * target):"]
+    for s, (lab, p) in enumerate(report.populations().items()):
         if p >= shown:
-            lines.append(f"  {lab:<24} {p:10.6f}")
-    dark = report.dark_populations()
-    if not any(p >= shown for p in dark.values()):
+            mark = "*" if report.target is not None and report.target[s] else " "
+            lines.append(f"  {lab:<24}{mark} {p:10.6f}")
+    held = [s for s in np.nonzero(report.dark)[0] if report.final[s] >= shown]
+    if not held:
         lines.append("dark sublevels: no population collects where the light cannot excite it")
-        return lines
-    lines.append(f"DARK SUBLEVELS hold {report.dark_fraction:.4f} of the atoms (excited less than "
-                 f"{DARK_RELATIVE:g} times as often as the brightest sublevel):")
-    for lab, p in dark.items():
-        if p >= shown:
-            lines.append(f"  {lab:<24} {p:10.6f}")
-    lines.append("  more power will not move them. Wanted if that is the state you pump into; "
-                 "otherwise add a repump or a polarization that reaches them (a transverse "
-                 "field also remixes them in the lab; it is not modelled, see docs/sublevel.md)")
+    else:
+        lines.append(f"DARK SUBLEVELS hold {report.dark_fraction:.4f} of the atoms (excited less "
+                     f"than {DARK_RELATIVE:g} times as often as the brightest sublevel; more "
+                     "power will not move them):")
+        for s in held:
+            lines.append(f"  {report.labels[s]:<24} {report.final[s]:10.6f}  "
+                         f"{dark_verdict(report, s)}")
+        if any(not report.target[s] for s in held) if report.target is not None else True:
+            lines.append("  (in the lab a field across the quantization axis also remixes "
+                         "dark sublevels; it is not modelled, see docs/sublevel.md)")
+    if report.saturation:
+        lines.append("saturation per beam, strongest driven sublevel pair (s0 above: "
+                     f"{LEVEL_CONVENTION}; here {PAIR_CONVENTION}):")
+        for name, info in report.saturation.items():
+            if info:
+                lines.append(f"  {name:<10} {info['pair']:<44} I_sat "
+                             f"{info['pair_saturation_intensity_mW_cm2']:.4g} mW/cm²  s = "
+                             f"{info['pair_saturation_parameter']:.3g}")
     return lines
