@@ -45,10 +45,10 @@ class SublevelReport:
         Dark sublevels (module docstring).
     target : ndarray of bool (S,)
         Sublevels of the setup's target.
-    coupled : ndarray of bool (S,)
-        Sublevels some beam's polarization couples to an upper sublevel at all
-        (a dark one that is not is dark by polarization; one that is, is dark
-        because no beam is tuned to its hyperfine level).
+    unreached : ndarray of bool (S,)
+        Dark sublevels whose whole hyperfine level is dark: no beam is tuned to
+        it (a repump cures that). A dark sublevel beside bright ones of its
+        hyperfine level is dark by polarization.
     saturation : dict
         Beam name -> :func:`pair_saturation` of its strongest driven pair.
     """
@@ -60,7 +60,7 @@ class SublevelReport:
     exposure: np.ndarray
     dark: np.ndarray
     target: np.ndarray = None
-    coupled: np.ndarray = None
+    unreached: np.ndarray = None
     saturation: dict = None
 
     @property
@@ -156,20 +156,20 @@ def sublevel_report(model, propagator, nodes, z) -> SublevelReport:
     driven = np.isin(level_of, [model.setup.scheme.index(b.lower) for b in model.setup.beams])
     bright = exposure[driven].max() if driven.any() else 0.0
     dark = driven & (exposure < DARK_RELATIVE * bright)
-    coupled = np.zeros(S - 1, dtype=bool)
-    for b in model.setup.beams:
-        coupled[[c.lower for c in basis.couplings(b)]] = True
+    F = getattr(basis, "F", level_of)[: S - 1]  # level mode has no F: one group per level
+    unreached = np.array([dark[(level_of == level_of[s]) & (F == F[s])].all() and dark[s]
+                          for s in range(S - 1)], dtype=bool)
     target = model.setup.goal.mask(basis)[: S - 1]
     saturation = {b.name: pair_saturation(model, i) for i, b in enumerate(model.setup.beams)}
     return SublevelReport(basis.labels[: S - 1], level_of, profile[-1, : S - 1],
-                          profile[:, : S - 1], exposure, dark, target, coupled, saturation)
+                          profile[:, : S - 1], exposure, dark, target, unreached, saturation)
 
 
 def dark_verdict(report, s) -> str:
     """Why sublevel ``s`` is dark and whether that is wanted."""
     if report.target is not None and report.target[s]:
         return "the target: wanted"
-    if report.coupled is not None and report.coupled[s]:
+    if report.unreached is not None and report.unreached[s]:
         return "leak: no beam is tuned to its hyperfine level; add a repump"
     return ("leak: the polarization cannot excite it; another polarization (or a second "
             "beam) reaches it")
