@@ -5,52 +5,144 @@ A view is a widget with:
 * ``apply_theme(theme)``: restyle and redraw;
 * ``curves()``: ``(header, rows)`` of what it shows, for CSV export
   (column names carry units);
-* ``figure``: the widget exported to PNG and SVG.
+* ``figure``: the widget exported to PNG and SVG (heading, plot, key and
+  caption; the routes view adds its table).
+
+Nothing in a view changes size while results stream in: the heading is one
+line, shortened with "…" when it does not fit (the whole text in its tooltip),
+the key sits under the plot rather than on the data, and the caption keeps
+a fixed number of lines.
 """
 
+import types
+
 import pyqtgraph as pg
-from PySide6.QtWidgets import QGraphicsItem, QLabel, QVBoxLayout, QWidget
+from PySide6.QtCore import Qt
+from PySide6.QtGui import QFontMetrics
+from PySide6.QtWidgets import QGraphicsItem, QLabel, QSizePolicy, QVBoxLayout, QWidget
 
 from . import theme as th
 
+CAPTION_LINES = 3
+STYLE_GLYPHS = {Qt.SolidLine: "━━━", Qt.DashLine: "╺━╸╺━╸", Qt.DotLine: "┅┅┅",
+                Qt.DashDotLine: "━╸·╺━", Qt.DashDotDotLine: "━·:·━"}
 
-class PlotView(QWidget):
-    """A titled pyqtgraph plot with a caption line under it."""
+
+class ElidedLabel(QLabel):
+    """One line of text that never widens its parent: cut with "…" to fit, whole in
+    the tooltip."""
 
     def __init__(self, parent=None):
+        super().__init__(parent)
+        self.full = ""
+        self.setSizePolicy(QSizePolicy.Ignored, QSizePolicy.Fixed)
+        self.setFixedHeight(QFontMetrics(self.font()).height() + 6)
+
+    def set_full_text(self, text):
+        self.full = text
+        self.setToolTip(text)
+        self._fit()
+
+    def resizeEvent(self, event):
+        super().resizeEvent(event)
+        self._fit()
+
+    def _fit(self):
+        metrics = QFontMetrics(self.font())
+        self.setText(metrics.elidedText(self.full, Qt.ElideRight, max(self.width() - 4, 10)))
+
+
+def plain_log_ticks(axis, values, scale, spacing):
+    """Tick text of a log axis as plain numbers (0.01, 0.1, 1, 10, 100), not a mix
+    with powers of ten; over more than a decade only the decades are labelled."""
+    wide = len(values) and max(values) - min(values) > 1.0
+    out = []
+    for v in values:
+        decade = abs(v - round(v)) < 1e-6
+        x = 10.0 ** (round(v) if decade else v)
+        if wide and not decade:
+            out.append("")
+        elif 1 <= x < 1e5:
+            out.append(f"{x:.0f}" if decade else f"{x:.2g}")
+        else:
+            out.append(f"{x:g}" if decade else f"{x:.2g}")
+    return out
+
+
+def fixed_lines(label, lines):
+    """Give a word-wrapped label room for exactly ``lines`` lines."""
+    label.setWordWrap(True)
+    label.setAlignment(Qt.AlignLeft | Qt.AlignTop)
+    label.setFixedHeight(QFontMetrics(label.font()).lineSpacing() * lines + 4)
+
+
+def key_entry(text, colour, style=Qt.SolidLine, shade=False):
+    """One entry of a key (rich text): a line sample, or a filled block for a shading."""
+    glyph = "▇▇" if shade else STYLE_GLYPHS.get(style, "━━━")
+    return (f'<span style="color:{colour}; font-weight:bold">{glyph}</span>&nbsp;'
+            f'{text.replace("<", "&lt;").replace(">", "&gt;")}')
+
+
+class PlotView(QWidget):
+    """A pyqtgraph plot with a one-line heading over it and a key and caption under it."""
+
+    def __init__(self, parent=None, caption_lines=CAPTION_LINES):
         super().__init__(parent)
         self.theme = th.LIGHT
         layout = QVBoxLayout(self)
         layout.setContentsMargins(6, 6, 6, 6)
+        self.figure = QWidget()
+        self.figure.setObjectName("figure")
+        self.figure_layout = QVBoxLayout(self.figure)
+        self.figure_layout.setContentsMargins(0, 0, 0, 0)
+        self.figure_layout.setSpacing(2)
+        self.heading = ElidedLabel()
+        self.heading.setObjectName("plotHeading")
+        self.figure_layout.addWidget(self.heading)
         self.plot = pg.PlotWidget()
         self.plot.getPlotItem().setMenuEnabled(False)
         # Axes hardly change while a slider moves, yet replaying their tick text is most
         # of a plot's repaint (measured on the profile view: ~27 ms of ~33); a pixmap
         # cache, renewed whenever an axis changes, makes the repaint a few milliseconds.
         for name in ("left", "bottom", "right", "top"):
-            self.plot.getPlotItem().getAxis(name).setCacheMode(
-                QGraphicsItem.DeviceCoordinateCache)
-        self.legend = self.plot.getPlotItem().addLegend(offset=(-10, 10))
-        layout.addWidget(self.plot, 1)
+            axis = self.plot.getPlotItem().getAxis(name)
+            axis.setCacheMode(QGraphicsItem.DeviceCoordinateCache)
+            axis.logTickStrings = types.MethodType(plain_log_ticks, axis)
+        self.figure_layout.addWidget(self.plot, 1)
+        self.key = QLabel()
+        self.key.setObjectName("plotKey")
+        self.key.setWordWrap(True)
+        self.key.setTextFormat(Qt.RichText)
+        self.key.hide()
+        self.figure_layout.addWidget(self.key)
         self.caption = QLabel()
         self.caption.setObjectName("hint")
-        self.caption.setWordWrap(True)
-        layout.addWidget(self.caption)
-        self.figure = self.plot
+        fixed_lines(self.caption, caption_lines)
+        self.figure_layout.addWidget(self.caption)
+        layout.addWidget(self.figure, 1)
         self._structure = None
 
     def apply_theme(self, theme):
         self.theme = theme
         th.style_plot(self.plot, theme)
-        self.legend.setLabelTextColor(theme.text)
-        self.legend.setBrush(pg.mkBrush(theme.panel + "d8"))
-        self.legend.setPen(pg.mkPen(theme.rule))
         self._structure = None
         self.redraw()
 
+    def set_heading(self, text, colour=None):
+        self.heading.set_full_text(text)
+        self.heading.setStyleSheet(f"color: {colour or self.theme.text}; font-weight: 600;")
+
+    def set_caption(self, text):
+        self.caption.setText(text)
+        self.caption.setToolTip(text)
+
+    def set_key(self, entries):
+        """The key under the plot: ``entries`` from :func:`key_entry`."""
+        self.key.setText("&nbsp;&nbsp;&nbsp; ".join(entries))
+        self.key.setVisible(bool(entries))
+
     def clear(self):
         self.plot.getPlotItem().clear()
-        self.legend.clear()
         self._structure = None
 
     def rebuild_needed(self, structure):
