@@ -58,7 +58,7 @@ class MapView(StudyView):
         self.bar = pg.ColorBarItem(values=(0, 1), interactive=False,
                                    label="transfer fraction into the target")
         self.bar.setImageItem(self.mesh, insert_in=item)
-        self.overlays, self.contours = [], []
+        self.overlays, self.across = [], ""
         bar = QHBoxLayout()
         bar.addWidget(QLabel("Colour scale"))
         self.span_choice = QComboBox()
@@ -80,7 +80,8 @@ class MapView(StudyView):
                   else f"held at {b.waist_across * 1e3:.3g} mm")
         item = self.plot.getPlotItem()
         item.setLabel("bottom", f"power of laser “{beam}” (mW)")
-        item.setLabel("left", f"waist along the atomic beam (mm); across: {across}")
+        item.setLabel("left", "waist along the atomic beam (mm)")
+        self.across = across
         return Plan(setup, beam, studies.map_changes(beam, self.powers, self.waists))
 
     def grid(self):
@@ -139,10 +140,11 @@ class MapView(StudyView):
         warn = [w for w in cautions(setup, powers={beam: top * 1e-3}) if w.startswith(f"{beam}: ")]
         self.set_caption(
             f"Line: the goal {self.wanted:.0%} in {setup.target}. Star: the set point "
-            f"({b.power * 1e3:.3g} mW, {b.waist * 1e3:.3g} mm). Each cell is centred on its "
+            f"({b.power * 1e3:.3g} mW, {b.waist * 1e3:.3g} mm); the waist across "
+            f"{self.across}. Each cell is centred on its "
             f"computed point; colour: transfer fraction, {low:.2f} to {high:.2f} (beyond: "
             "the end colours)."
-            + "".join(f"\n⚠ up to {top:.3g} mW: {w}" for w in warn))
+            + "".join(f"\n⚠ up to {top:.4g} mW: {w}" for w in warn))
         self.plot.getPlotItem().setRange(xRange=(x[0, 0], x[-1, 0]), yRange=(y[0, 0], y[0, -1]),
                                          padding=0)
 

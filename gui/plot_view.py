@@ -16,6 +16,7 @@ a fixed number of lines.
 
 import types
 
+import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
 from PySide6.QtGui import QFontMetrics
@@ -54,13 +55,16 @@ class ElidedLabel(QLabel):
 
 def plain_log_ticks(axis, values, scale, spacing):
     """Tick text of a log axis as plain numbers (0.01, 0.1, 1, 10, 100), not a mix
-    with powers of ten; over more than a decade only the decades are labelled."""
-    wide = len(values) and max(values) - min(values) > 1.0
+    with powers of ten. Over a few decades only 1, 2 and 5 times a decade are
+    labelled, over more only the decades, so that labels never crowd."""
+    span = max(values) - min(values) if len(values) else 0.0
     out = []
     for v in values:
         decade = abs(v - round(v)) < 1e-6
         x = 10.0 ** (round(v) if decade else v)
-        if wide and not decade:
+        lead = round(x / 10.0 ** np.floor(np.log10(x) + 1e-9), 6)
+        shown = decade or span <= 1.0 or (span <= 2.5 and lead in (2.0, 5.0))
+        if not shown:
             out.append("")
         elif 1 <= x < 1e5:
             out.append(f"{x:.0f}" if decade else f"{x:.2g}")

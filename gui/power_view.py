@@ -74,13 +74,13 @@ class PowerView(StudyView):
         p, top = self.least_power(), float(self.powers[-1])
         if p is None:
             best = np.nanmax(self.best()) if np.isfinite(self.best()).any() else np.nan
-            head = (f"The goal {self.wanted:.0%} is not reached up to {top:.3g} mW "
+            head = (f"The goal {self.wanted:.0%} is not reached up to {top:.4g} mW "
                     f"(best {best:.1%}).")
             warn = cautions(setup, powers={beam: top * 1e-3})
         else:
             head = f"Least power for {self.wanted:.0%}: {p:.3g} mW (interpolated on this curve)."
             warn = cautions(setup, powers={beam: p * 1e-3})
-            warn += [f"up to {top:.3g} mW on this axis: {w}"
+            warn += [f"up to {top:.4g} mW on this axis: {w}"
                      for w in cautions(setup, powers={beam: top * 1e-3})]
         return head + "\n" + "\n".join("⚠ " + w for w in warn if beam + ": " in w)
 

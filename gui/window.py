@@ -24,7 +24,7 @@ from pumpsim.errors import InputError
 from . import files
 from . import theme as th
 from .banners import CautionBar, MessageBar
-from .controls import SetupPanel
+from .controls import PANEL_WIDTH, SetupPanel
 from .edits import apply_edit
 from .levels_view import LevelsView
 from .map_view import MapView
@@ -37,6 +37,7 @@ from .worker import Freshness, LiveCompute, StudyCompute
 
 STUDY_DELAY_MS = 400  # a visible study restarts once the setup has stood still this long
 DEFAULT_GOAL = 0.9
+PANEL_SHARE = PANEL_WIDTH + 30  # the setup panel's starting width (px); the splitter moves it
 STATUS_WORDS = {"quick": "Quick estimate", "coarse": "Engine (coarse tolerance)", "engine": "Engine"}
 
 
@@ -70,7 +71,7 @@ class MainWindow(QMainWindow):
         self.freshness = Freshness()
         self.shown = None
         self.failure = None  # (generation, message) of the newest request that raised
-        self.study_keys = {}
+        self.study_keys, self.study_running = {}, None
         self.undone, self.redone = [], []  # setups before each edit, and those undone
 
         self.message = MessageBar()
@@ -130,7 +131,7 @@ class MainWindow(QMainWindow):
         split.addWidget(self.panel)
         split.addWidget(right)
         split.setStretchFactor(1, 1)
-        split.setSizes([440, 1000])
+        split.setSizes([PANEL_SHARE, 1000])
         root = QWidget()
         root.setObjectName("root")
         outer = QVBoxLayout(root)
@@ -293,6 +294,7 @@ class MainWindow(QMainWindow):
     # -- studies ----------------------------------------------------------------
     def _tab_changed(self, _index):
         self.studies.cancel()
+        self.study_running = None
         self._refresh_tab()
 
     def _refresh_tab(self):
@@ -302,9 +304,10 @@ class MainWindow(QMainWindow):
         if not isinstance(view, StudyView) or not self.setup.beams:
             return
         key = (self.live.generation, self.study_beam.currentText())
-        if self.study_keys.get(view) == key and view.complete:
-            return
+        if self.study_keys.get(view) == key and (view.complete or self.study_running is view):
+            return  # done, or under way for this very setup
         self.study_keys[view] = key
+        self.study_running = view
         view.wanted = self.goal.value()
         self.studies.submit(view.start(self.setup, self.study_beam.currentText()))
 
