@@ -46,7 +46,7 @@ class SetupPanel(QScrollArea):
         self.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
         self.setMinimumWidth(PANEL_WIDTH)
         self.rows, self.caution_labels, self.structure = {}, {}, None
-        self.body = None
+        self.body = self.ran = None
 
     def load(self, setup):
         """Show ``setup``; rebuild only if its beams, scheme or source kind changed.
@@ -71,6 +71,12 @@ class SetupPanel(QScrollArea):
             text = beam_cautions(setup, name)
             label.setText("⚠ " + "\n⚠ ".join(text) if text else "")
             label.setVisible(bool(text))
+
+    def show_ran(self, numerics):
+        """What the engine actually ran for the result on show (sublevel mode may pick
+        another integrator than the solver set here)."""
+        self.ran.setText(f"Last engine run: {numerics.solver} integrator, {numerics.nodes} "
+                         f"atom classes, {numerics.steps} steps, {numerics.seconds:.2g} s")
 
     def show_error(self, key, message):
         if key in self.rows:
@@ -116,6 +122,10 @@ class SetupPanel(QScrollArea):
         group = self._group(column, "Numerics")
         for f in fields_of("numerics"):
             self._add(group, setup, f, None)
+        self.ran = QLabel("The engine has not run yet.")
+        self.ran.setObjectName("hint")
+        self.ran.setWordWrap(True)
+        group.addWidget(self.ran)
         column.addStretch(1)
         old = self.takeWidget()
         if old is not None:

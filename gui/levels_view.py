@@ -17,6 +17,7 @@ from .plot_view import PlotView
 from .theme import base_font, readable, wavelength_colour
 
 LABEL_GAP = 0.045  # least vertical distance between level labels, fraction of the energy range
+LABEL_ROOM = 10.0  # x room right of the last column for the level labels (column widths)
 LEAK_DROP = 0.07  # length of an arrow to "other", fraction of the energy range
 
 
@@ -126,7 +127,7 @@ class LevelsView(PlotView):
                 end = E[up] - LEAK_DROP * top
                 self._arrow(xs, E[up], end, colour, 1.5, "x", Qt.DotLine)
                 self._text(xs + 0.35, end, f"other {value:.0%}", colour, rotate=False)
-        self.plot.getPlotItem().setXRange(-1.0, right + 7.0, padding=0)
+        self.plot.getPlotItem().setXRange(-1.0, right + LABEL_ROOM, padding=0)
         self.plot.getPlotItem().setYRange(-0.04 * top, 1.06 * top, padding=0)
         self.set_heading(f"{scheme.name}: levels to scale in energy")
 

@@ -68,7 +68,7 @@ class MapView(StudyView):
         self.span_choice.currentIndexChanged.connect(lambda _: self.redraw())
         bar.addWidget(self.span_choice)
         bar.addStretch(1)
-        self.layout().insertLayout(0, bar)
+        self.column.insertLayout(0, bar)
 
     def make_plan(self, setup, beam):
         # the power tab's own axis: the map's row at the set waist is then its curve

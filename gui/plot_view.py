@@ -20,11 +20,13 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
 from PySide6.QtGui import QFontMetrics
-from PySide6.QtWidgets import QGraphicsItem, QLabel, QSizePolicy, QVBoxLayout, QWidget
+from PySide6.QtWidgets import (QFrame, QGraphicsItem, QLabel, QScrollArea, QSizePolicy,
+                               QVBoxLayout, QWidget)
 
 from . import theme as th
 
 CAPTION_LINES = 3
+MIN_HEIGHT = 360  # below this a view scrolls rather than squeezing its plot (small screens)
 STYLE_GLYPHS = {Qt.SolidLine: "━━━", Qt.DashLine: "╺━╸╺━╸", Qt.DotLine: "┅┅┅",
                 Qt.DashDotLine: "━╸·╺━", Qt.DashDotDotLine: "━·:·━"}
 
@@ -90,11 +92,23 @@ def key_entry(text, colour, style=Qt.SolidLine, shade=False):
 class PlotView(QWidget):
     """A pyqtgraph plot with a one-line heading over it and a key and caption under it."""
 
-    def __init__(self, parent=None, caption_lines=CAPTION_LINES):
+    def __init__(self, parent=None, caption_lines=CAPTION_LINES, min_height=MIN_HEIGHT):
         super().__init__(parent)
         self.theme = th.LIGHT
-        layout = QVBoxLayout(self)
-        layout.setContentsMargins(6, 6, 6, 6)
+        outer = QVBoxLayout(self)
+        outer.setContentsMargins(0, 0, 0, 0)
+        scroll = QScrollArea()
+        scroll.setObjectName("viewScroll")
+        scroll.setWidgetResizable(True)
+        scroll.setFrameShape(QFrame.NoFrame)
+        scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
+        body = QWidget()
+        body.setObjectName("viewBody")
+        body.setMinimumHeight(min_height)
+        self.column = QVBoxLayout(body)
+        self.column.setContentsMargins(6, 6, 6, 6)
+        scroll.setWidget(body)
+        outer.addWidget(scroll)
         self.figure = QWidget()
         self.figure.setObjectName("figure")
         self.figure_layout = QVBoxLayout(self.figure)
@@ -123,7 +137,7 @@ class PlotView(QWidget):
         self.caption.setObjectName("hint")
         fixed_lines(self.caption, caption_lines)
         self.figure_layout.addWidget(self.caption)
-        layout.addWidget(self.figure, 1)
+        self.column.addWidget(self.figure, 1)
         self._structure = None
 
     def apply_theme(self, theme):

@@ -82,7 +82,8 @@ class PowerView(StudyView):
             warn = cautions(setup, powers={beam: p * 1e-3})
             warn += [f"up to {top:.4g} mW on this axis: {w}"
                      for w in cautions(setup, powers={beam: top * 1e-3})]
-        return head + "\n" + "\n".join("⚠ " + w for w in warn if beam + ": " in w)
+        mine = [w for w in warn if w.startswith(f"{beam}: ") or f" mW on this axis: {beam}: " in w]
+        return head + "\n" + "\n".join("⚠ " + w for w in mine)
 
     def curves(self):
         header = ["power_mW", "fraction_quick", "fraction_engine", "photons_per_atom",

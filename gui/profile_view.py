@@ -75,7 +75,7 @@ class ProfileView(PlotView):
         bar.addWidget(self.show_label)
         bar.addWidget(self.show_choice)
         bar.addStretch(1)
-        self.layout().insertLayout(0, bar)
+        self.column.insertLayout(0, bar)
         for w in (self.show_label, self.show_choice):
             w.setVisible(False)
         self.set_caption(CAPTIONS[False])

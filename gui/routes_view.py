@@ -17,6 +17,7 @@ from .theme import readable, wavelength_colour
 HEADER = ("route", "λ\n(nm)", "σ₀\n(m²)", "decays to\ntarget", "decays to\nother",
           "transfer at\nset power", "power for\ngoal (mW)", "photons\nper atom",
           "deflection\n(mrad)")
+TABLE_ROWS_SHOWN = 4  # rows the table shows without scrolling
 STYLES = (Qt.SolidLine, Qt.DashLine, Qt.DashDotLine, Qt.DotLine)
 
 
@@ -26,7 +27,7 @@ class RoutesView(StudyView):
     use_route = Signal(str, str, str)
 
     def __init__(self, parent=None):
-        super().__init__(parent)
+        super().__init__(parent, caption_lines=6, min_height=620)
         item = self.plot.getPlotItem()
         item.setLogMode(x=True, y=False)
         item.setLabel("left", "transfer fraction into the target")
@@ -48,6 +49,7 @@ class RoutesView(StudyView):
         self.figure_layout.removeWidget(self.plot)
         self.split.addWidget(self.table)
         self.split.addWidget(self.plot)
+        self.plot.setMinimumHeight(240)
         self.split.setStretchFactor(0, 2)
         self.split.setStretchFactor(1, 3)
         self.figure_layout.insertWidget(1, self.split, 1)
@@ -56,7 +58,7 @@ class RoutesView(StudyView):
         self.use_button.clicked.connect(self._use_selected)
         buttons.addWidget(self.use_button)
         buttons.addStretch(1)
-        self.layout().insertLayout(0, buttons)
+        self.column.insertLayout(0, buttons)
         self.routes, self.powers, self.ranked = [], np.array([]), []
 
     def make_plan(self, setup, beam):
@@ -118,6 +120,9 @@ class RoutesView(StudyView):
     def _fill_table(self, setup, beam):
         self.ranked = self.rows()
         self.table.setRowCount(len(self.ranked))
+        shown = min(len(self.ranked), TABLE_ROWS_SHOWN)
+        self.table.setMinimumHeight(self.table.horizontalHeader().sizeHint().height() + 4
+                                    + shown * self.table.verticalHeader().defaultSectionSize())
         warnings = []
         for i, (r, need, at) in enumerate(self.ranked):
             cells = (f"{r.lower} → {r.upper}", f"{r.wavelength * 1e9:.2f}", f"{r.sigma0:.3g}",
@@ -138,7 +143,7 @@ class RoutesView(StudyView):
         text = ("Ranked by the least power that reaches the goal (interpolated on the curves), "
                 "then by the transfer at the set power. ")
         if unreached:
-            text += (f"Not reached up to {self.powers[-1]:.3g} mW: {', '.join(unreached)}. ")
+            text += (f"Not reached up to {self.powers[-1]:.4g} mW: {', '.join(unreached)}. ")
         self.set_caption(text + "\n" + "\n".join(f"⚠ {w}" for w in dict.fromkeys(warnings)))
 
     @staticmethod

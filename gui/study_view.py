@@ -81,8 +81,10 @@ class StudyView(PlotView):
     :meth:`redraw`; values arrive in :attr:`values` (pass -> quantity -> array).
     """
 
-    def __init__(self, parent=None):
-        super().__init__(parent, caption_lines=4)
+    def __init__(self, parent=None, **kw):
+        kw.setdefault("caption_lines", 5)
+        kw.setdefault("min_height", 380)
+        super().__init__(parent, **kw)
         self.job_id, self.plan, self.wanted = 0, None, 0.9
         self.values = {}
         self.done = set()

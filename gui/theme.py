@@ -80,6 +80,7 @@ STYLE = """
 QWidget {{ color: {text}; }}
 QMainWindow, QWidget#root {{ background: {window}; }}
 QScrollArea, QScrollArea > QWidget > QWidget#setupPanel {{ background: {window}; border: none; }}
+QScrollArea#viewScroll, QWidget#viewBody {{ background: {panel}; }}
 QGroupBox {{
     background: {panel}; border: 1px solid {rule}; border-radius: 6px;
     margin-top: 1.6em; padding: 8px 8px 6px 8px; font-weight: 600;

@@ -265,6 +265,8 @@ class MainWindow(QMainWindow):
             self.failure = None
         self._mark_failure()
         self.profile.display(update, self.goal.value())
+        if update.stage != "quick":
+            self.panel.show_ran(update.result.numerics)
         done = update.stage == "engine" and not pending
         self.export_result_action.setEnabled(done)
         n = update.result.numerics
