@@ -82,9 +82,17 @@ def fixed_lines(label, lines):
     label.setFixedHeight(QFontMetrics(label.font()).lineSpacing() * lines + 4)
 
 
-def key_entry(text, colour, style=Qt.SolidLine, shade=False):
-    """One entry of a key (rich text): a line sample, or a filled block for a shading."""
-    glyph = "▇▇" if shade else STYLE_GLYPHS.get(style, "━━━")
+SHADE_GLYPHS = {Qt.SolidPattern: "▇▇", Qt.BDiagPattern: "▨▨", Qt.FDiagPattern: "▧▧",
+                Qt.DiagCrossPattern: "▩▩"}
+
+
+def key_entry(text, colour, style=Qt.SolidLine, shade=None):
+    """One entry of a key (rich text): a line sample, or for a shading (``shade``: its
+    brush pattern, or True for solid) a block of that pattern."""
+    if shade is None or shade is False:
+        glyph = STYLE_GLYPHS.get(style, "━━━")
+    else:
+        glyph = SHADE_GLYPHS.get(Qt.SolidPattern if shade is True else shade, "▇▇")
     return (f'<span style="color:{colour}; font-weight:bold">{glyph}</span>&nbsp;'
             f'{text.replace("<", "&lt;").replace(">", "&gt;")}')
 
@@ -148,7 +156,9 @@ class PlotView(QWidget):
 
     def set_heading(self, text, colour=None):
         self.heading.set_full_text(text)
-        self.heading.setStyleSheet(f"color: {colour or self.theme.text}; font-weight: 600;")
+        style = f"color: {colour or self.theme.text}; font-weight: 600;"
+        if style != self.heading.styleSheet():  # restyling costs; the colour rarely changes
+            self.heading.setStyleSheet(style)
 
     def set_caption(self, text):
         self.caption.setText(text)

@@ -152,7 +152,8 @@ class ProfileView(PlotView):
             item.curve.setCacheMode(QGraphicsItem.DeviceCoordinateCache)  # the painting child
             self.plot.addItem(item)
             self.shades.append(item)
-            key.append(key_entry(f"laser “{b.name}” {nm:.0f} nm", colour, shade=True))
+            key.append(key_entry(f"laser “{b.name}” {nm:.0f} nm", colour,
+                                 shade=SHADE_PATTERNS[i % len(SHADE_PATTERNS)]))
         self.lines = []
         if self.showing_sublevels:
             pens = self._sublevel_pens(r)
