@@ -94,7 +94,8 @@ def key_entry(text, colour, style=Qt.SolidLine, shade=None):
     else:
         glyph = SHADE_GLYPHS.get(Qt.SolidPattern if shade is True else shade, "▇▇")
     return (f'<span style="color:{colour}; font-weight:bold">{glyph}</span>&nbsp;'
-            f'{text.replace("<", "&lt;").replace(">", "&gt;")}')
+            # entries break between each other, never inside
+            f'{text.replace("<", "&lt;").replace(">", "&gt;").replace(" ", "&nbsp;")}')
 
 
 class PlotView(QWidget):

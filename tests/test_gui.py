@@ -471,6 +471,10 @@ def test_exports_are_valid(open_window, qtbot, tmp_path, cheap_path):
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec, section 5.2)
     root = ET.parse(svg).getroot()  # well-formed XML
     assert root.tag.endswith("svg")
+    # the figure says where it comes from: setup file, key values, tool version
+    text = " ".join(e.text or "" for e in root.iter())
+    assert "cheap.toml" in text and f"pumpsim {pumpsim.__version__}" in text
+    assert "power 0.02 mW" in text
     w.tabs.setCurrentWidget(w.levels)
     assert w.export_plot(tmp_path / "levels.png") and w.export_curves(tmp_path / "levels.csv")
     assert not w.export_plot(tmp_path / "plot.gif")
