@@ -146,14 +146,14 @@ class FieldRow(QWidget):
 
     def set_value(self, value, is_set=True):
         """Show ``value`` without emitting ``edited``; it becomes the value the row
-        compares new entries with. The control whose change led here (a slider being
-        dragged, an entry just typed in) is left as the user has it."""
+        compares new entries with. A slider being dragged is left where the user
+        holds it; an entry just typed in shows the value as it is now written."""
         self.value, self.is_set = value, is_set
         if self.choice is not None and self._changing != "choice":
             self._show_choice(value)
         if self.entry is not None:
             text = format_value(self.field, value)
-            if self._changing != "entry":
+            if self._changing != "slider":  # a drag has already written the entry
                 self.entry.setText(text if is_set else "")
             # the default greyed, whole: "(default)" would not fit beside a long number
             self.entry.setPlaceholderText("" if is_set else text)
