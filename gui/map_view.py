@@ -96,6 +96,7 @@ class MapView(StudyView):
         self.mesh.setColorMap(theme.colour_map())
         self.bar.getAxis("right").setTextPen(pg.mkPen(theme.text))
         super().apply_theme(theme)
+        self.plot.getPlotItem().showGrid(x=False, y=False)  # grid lines would cross the cells
 
     def contour_lines(self):
         """The goal contour as ``[(log10 power, log10 waist), ...]`` polylines, traced

@@ -5,6 +5,7 @@ TOML 1.0 specification's reference behaviour in Python), never against the
 writer itself.
 """
 
+import copy
 import math
 import tomllib
 
@@ -14,6 +15,7 @@ from hypothesis import strategies as st
 
 import pumpsim
 from pumpsim.demo import demo_setup_path
+from pumpsim.setup_file import setup_from_document
 from pumpsim.tomltext import dumps, restyle
 
 # Any Unicode scalar value a TOML string may hold: every code point except the
@@ -78,3 +80,35 @@ def test_beam_names_outside_the_bmp_and_del_round_trip(name):
     doc = {"beam": [{"name": name, "power_mW": 1.0}]}
     assert tomllib.loads(dumps(doc)) == doc
     assert not math.isnan(tomllib.loads(dumps(doc))["beam"][0]["power_mW"])
+
+
+# Beam names may hold any character but the ones a --set key needs ('.', '=',
+# brackets, whitespace: README, "Checks beyond the contract") and control characters.
+BEAM_NAME = st.text(st.characters(blacklist_categories=("Cs", "Cc", "Zs", "Zl", "Zp"),
+                                  blacklist_characters=".=[]{}\"'\\#") | st.just("\x7f"),
+                    min_size=1, max_size=8)
+POSITIVE = st.floats(min_value=1e-3, max_value=1e3, allow_nan=False)
+
+
+@settings(max_examples=40, deadline=None)
+@given(names=st.lists(BEAM_NAME, min_size=2, max_size=2, unique=True),
+       powers=st.lists(POSITIVE, min_size=2, max_size=2), waist=POSITIVE,
+       comment=st.text(st.characters(blacklist_categories=("Cs", "Cc")), max_size=20))
+def test_generated_setups_round_trip_through_save(tmp_path_factory, names, powers, waist, comment):
+    """A setup document (the demo's, with generated beam names, powers and a waist,
+    and a comment of the user's) saved and loaded again is the same document."""
+    folder = tmp_path_factory.mktemp("g")
+    doc = tomllib.loads(open(demo_setup_path(), encoding="utf-8").read())
+    doc["scheme"] = (demo_setup_path().parent / doc["scheme"]).resolve().as_posix()
+    path = folder / "setup.toml"
+    path.write_text(f"# {comment}\n" + dumps(doc), encoding="utf-8")
+    setup = pumpsim.load_setup(path)
+    changed = copy.deepcopy(setup.document)
+    for beam, name, power in zip(changed["beam"], names, powers):
+        beam["name"], beam["power_mW"] = name, power
+    changed["beam"][0]["waist_mm"] = waist
+    setup = setup_from_document(changed, str(path), text_=setup.text)
+    pumpsim.save_setup(setup, path)
+    again = pumpsim.load_setup(path)
+    assert again.document == changed
+    assert path.read_text(encoding="utf-8").startswith(f"# {comment}\n")
