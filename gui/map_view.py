@@ -111,11 +111,6 @@ class MapView(StudyView):
             out.append((index_to_axis(c[:, 0], lp), index_to_axis(c[:, 1], lw)))
         return out
 
-    def contour_power_at(self, waist_mm):
-        """Least power (mW) on the goal contour at a waist of the grid, or None."""
-        row = self.grid()[list(self.waists).index(waist_mm)]
-        return studies.least_power(self.powers, row, self.wanted)
-
     def redraw(self):
         for item in self.overlays:
             self.plot.removeItem(item)
