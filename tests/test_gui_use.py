@@ -225,6 +225,9 @@ def test_nothing_moves_while_results_stream(open_window, qtbot, cheap_path):
     w = open_window(setup, live=LiveCompute(full=lambda s, superseded: pumpsim.simulate(s)))
     w.resize(1280, 720)
     wait_engine(qtbot, w)
+    # the worker records the run's time after sending its result: wait for that record,
+    # or it could overwrite ours
+    qtbot.waitUntil(lambda: w.live.last_engine_s > 0, timeout=WAIT_MS)
     w.live.last_engine_s = 10.0  # as if runs had proved slow: the coarse pass is taken
     seen = {}
 
