@@ -55,6 +55,36 @@ class ElidedLabel(QLabel):
         self.setText(metrics.elidedText(self.full, Qt.ElideRight, max(self.width() - 4, 10)))
 
 
+class FlatColumn(QVBoxLayout):
+    """A column that asks for no height-for-width: a scroll area around it then scrolls
+    only below the column's minimum height, not whenever word-wrapped text would like
+    more room than the plot leaves it (the wrapped labels here size themselves)."""
+
+    def hasHeightForWidth(self):
+        return False
+
+
+class WrappedLabel(QLabel):
+    """Word-wrapped text that keeps the height its current width needs."""
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.setWordWrap(True)
+
+    def resizeEvent(self, event):
+        super().resizeEvent(event)
+        self._fit()
+
+    def setText(self, text):
+        super().setText(text)
+        self._fit()
+
+    def _fit(self):
+        need = self.heightForWidth(max(self.width(), 50))
+        if need > 0 and need != self.minimumHeight():
+            self.setMinimumHeight(need)
+
+
 def plain_log_ticks(axis, values, scale, spacing):
     """Tick text of a log axis as plain numbers (0.01, 0.1, 1, 10, 100), not a mix
     with powers of ten. Over a few decades only 1, 2 and 5 times a decade are
@@ -114,7 +144,7 @@ class PlotView(QWidget):
         body = QWidget()
         body.setObjectName("viewBody")
         body.setMinimumHeight(min_height)
-        self.column = QVBoxLayout(body)
+        self.column = FlatColumn(body)
         self.column.setContentsMargins(6, 6, 6, 6)
         scroll.setWidget(body)
         outer.addWidget(scroll)
@@ -136,9 +166,8 @@ class PlotView(QWidget):
             axis.setCacheMode(QGraphicsItem.DeviceCoordinateCache)
             axis.logTickStrings = types.MethodType(plain_log_ticks, axis)
         self.figure_layout.addWidget(self.plot, 1)
-        self.key = QLabel()
+        self.key = WrappedLabel()
         self.key.setObjectName("plotKey")
-        self.key.setWordWrap(True)
         self.key.setTextFormat(Qt.RichText)
         self.key.hide()
         self.figure_layout.addWidget(self.key)
