@@ -92,7 +92,10 @@ def quick_estimate(setup) -> Result:
         converged=False,
         conservation_error=float(np.max(np.abs(levels.sum(axis=1) - 1.0))),
         seconds=time.perf_counter() - t0)
-    return Result(setup, ids, final, final[setup.target],
+    goal = setup.goal  # a sublevel target counts its sublevels of the final states
+    target = final[goal.level] if goal.whole_level else float(
+        W @ traj.final[:, :model.n_states][:, goal.mask(model.basis)].sum(axis=1))
+    return Result(setup, ids, final, target,
                   dict(zip(names, map(float, W @ photons))),
                   dict(zip(names, map(float, W @ deflection))),
                   z, profile, Evaluated(V, A, Y, W, values, None), report)

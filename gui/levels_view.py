@@ -98,15 +98,15 @@ class LevelsView(PlotView):
             x += 0.6
         right = x
         for lv in scheme.levels:
-            is_target = lv.id == setup.target
+            is_target = lv.id == setup.target_level
             pen = pg.mkPen(t.target if is_target else t.text, width=3.5 if is_target else 2)
             self.plot.plot([-0.8, right - 0.2], [E[lv.id]] * 2, pen=pen)
         heights = spread_labels([E[lv.id] for lv in scheme.levels], LABEL_GAP * top)
         for lv, h in zip(scheme.levels, heights):
             text = f"{lv.id}  J={lv.J:g}" + (f"  {lv.label}" if lv.label else "")
-            colour = t.target if lv.id == setup.target else t.text
+            colour = t.target if lv.id == setup.target_level else t.text
             label = pg.TextItem(text, color=colour, anchor=(0, 0.5))
-            label.setFont(base_font(-0.5, bold=lv.id == setup.target))
+            label.setFont(base_font(-0.5, bold=lv.id == setup.target_level))
             label.setPos(right, h)
             self.plot.addItem(label)
             if abs(h - E[lv.id]) > 1e-9:

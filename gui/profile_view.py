@@ -159,7 +159,7 @@ class ProfileView(PlotView):
             pens = self._sublevel_pens(r)
         else:
             pens = [pg.mkPen(t.level_colour(i, len(levels)),
-                             width=3.2 if lid == setup.target else 2.0,
+                             width=3.2 if lid == setup.target_level else 2.0,
                              style=Qt.DashLine if lid == "other" else Qt.SolidLine)
                     for i, lid in enumerate(levels)]
         for pen, name, named in zip(pens, names, legend):
@@ -194,7 +194,7 @@ class ProfileView(PlotView):
     def _level_name(setup, lid):
         if lid == "other":
             return "other (lost from the scheme)"
-        suffix = " — target" if lid == setup.target else ""
+        suffix = " — target" if lid == setup.target_level else ""
         return f"{lid}{suffix}"
 
     def curves(self):

@@ -5,6 +5,8 @@ parameter."""
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QFrame, QGridLayout, QHBoxLayout, QLabel, QVBoxLayout
 
+from pumpsim.basis import SublevelBasis
+
 from .plot_view import ElidedLabel, fixed_lines
 from .profile_view import stage_text
 
@@ -112,7 +114,12 @@ class Readouts(QFrame):
     def before_lasers(r):
         """The target's mean population where the integration starts, before any laser
         (the source's own share, e.g. thermal)."""
-        return float(r.profile[0, list(r.levels).index(r.setup.target)])
+        goal = r.setup.goal
+        level = r.profile[0, list(r.levels).index(goal.level)]
+        if goal.whole_level:
+            return float(level)
+        basis = SublevelBasis(r.setup.scheme, r.setup.magnetic_field)  # the source's sharing
+        return float(basis.initial_state(r.profile[0, :-1])[goal.mask(basis)].sum())
 
     def _make_cells(self, n_beams):
         for row in self.cells:

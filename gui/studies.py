@@ -124,7 +124,7 @@ def route_list(setup, beam):
         if d.lower != b.lower:
             continue
         G = scheme.total_rate(d.upper)
-        to_target = scheme.decay(d.upper, setup.target)
+        to_target = scheme.decay(d.upper, setup.target_level)
         out.append(Route(b.lower, d.upper, d.wavelength,
                          line(scheme, b.lower, d.upper).sigma0(b.linewidth),
                          to_target.rate / G if to_target else 0.0,
