@@ -50,12 +50,16 @@ class BranchingLimit:
         drives them out (a repump from them would help).
     slow : tuple of str
         Levels with decays treated as stable (slow on the flight time).
+    dark_why : dict or None
+        Sublevel mode (:mod:`pumpsim.sublevel_limits`): dark sublevel -> why
+        atoms stay there and what would move them.
     """
 
     fraction: float
     final: dict
     dark: tuple
     slow: tuple
+    dark_why: dict = None
 
 
 def long_run(Q, p0):

@@ -285,3 +285,29 @@ def test_scan_varies_power_for_a_sublevel_target(tmp_path, capsys):
         frac = f["results/transfer_fraction"][()]
         assert f["results"].attrs["target"] == "5S1/2 F=2 m=+2"
     assert np.all(np.diff(frac) > 0) and frac[-1] > 0.9 and frac[0] < 0.8
+
+
+# --- the limit dark states set (unlimited time) -------------------------------------------
+
+def test_pumping_limit_ends_in_the_dark_state_and_names_what_leaks():
+    # textbook optical pumping (Happer, Rev. Mod. Phys. 44, 169, 1972): pi light on
+    # F=2 -> F'=2 with F=1 repumped leaves every atom in |2,0> ((2 1 2; 0 0 0) = 0)
+    from pumpsim.sublevel_limits import pumping_limit
+
+    pi = rb_setup(PI_BEAMS, target="5S1/2 F=2 m=0")
+    assert pumping_limit(pi).fraction == pytest.approx(1.0, abs=1e-9)
+    # the same light, aiming at |2,+2>: the atoms end in |2,0>, a leak by polarization
+    lim = pumping_limit(rb_setup(PI_BEAMS, target="5S1/2 F=2 m=+2"))
+    assert lim.fraction == pytest.approx(0.0, abs=1e-9)
+    assert lim.dark == ("5S1/2 F=2 m=0",) and "polarization" in lim.dark_why["5S1/2 F=2 m=0"]
+    # sigma+ on the closed D2 line F=2 -> F'=3 without repump: F=1 (3 of the 8 ground
+    # sublevels of an unpolarized source, 3/8) is never reached; the F=2 atoms end in the
+    # cycling state |2,+2> (Steck, Rubidium 87 D Line Data: F'=3 decays only to F=2), less
+    # the small off-resonant leak through F'=2
+    cyc = rb_setup([dict(name="p", transition=["5S1/2", "5P3/2"], reference_F=[2, 3],
+                         polarization="sigma+", power_mW=1.0, waist_mm=1.0)],
+                   target="5S1/2 F=2 m=+2")
+    lim = pumping_limit(cyc)
+    assert lim.fraction == pytest.approx(5 / 8, abs=2e-3) and lim.fraction < 5 / 8
+    assert set(lim.dark) == {"5S1/2 F=1 m=-1", "5S1/2 F=1 m=0", "5S1/2 F=1 m=+1"}
+    assert all("repump" in w for w in lim.dark_why.values())
