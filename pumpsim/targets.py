@@ -176,3 +176,21 @@ def parse_target(scheme, text: str) -> Target:
             return Target(text, level)
         states.update(found)
     return Target(text, level, tuple(sorted(states)))
+
+
+def target_choices(scheme, sublevel: bool) -> tuple:
+    """Targets to offer in a chooser: every level, and in sublevel mode each
+    hyperfine level (when there is hyperfine structure), each stretched state
+    and each single sublevel, level by level."""
+    out = []
+    I = scheme.nuclear_spin
+    for lv in scheme.levels:
+        out.append(lv.id)
+        if not sublevel:
+            continue
+        for F in f_values(lv.J, I):
+            head = f"{lv.id} F={half_text(F)}" if I else lv.id
+            if I and len(f_values(lv.J, I)) > 1:
+                out.append(head)
+            out += [f"{head} m={signed_text(m)}" for m in reversed(m_values(F))]
+    return tuple(out)
