@@ -128,7 +128,13 @@ def branching_limit(setup) -> BranchingLimit:
     Returns
     -------
     BranchingLimit
+        In sublevel mode :func:`pumpsim.sublevel_limits.pumping_limit`'s, where
+        dark sublevels set the limit.
     """
+    if setup.mode == "sublevel":
+        from .sublevel_limits import pumping_limit  # it builds on this module
+
+        return pumping_limit(setup)
     scheme = setup.scheme
     ids = scheme.ids + ("other",)
     n = len(ids)
