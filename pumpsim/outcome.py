@@ -28,6 +28,8 @@ class Outcome:
     converged : bool
     seconds : float
         Wall time of the simulation on the worker (the only executor-dependent field).
+    sublevel_populations : dict or None
+        Sublevel mode: sublevel label -> fraction (what a sublevel target is made of).
     """
 
     transfer_fraction: float
@@ -37,6 +39,7 @@ class Outcome:
     error_estimate: float
     converged: bool
     seconds: float
+    sublevel_populations: dict = None
 
 
 def evaluate(setup) -> Outcome:
@@ -45,4 +48,5 @@ def evaluate(setup) -> Outcome:
     r = simulate(setup)
     return Outcome(r.transfer_fraction, dict(r.final_populations), dict(r.photons_per_atom),
                    dict(r.deflection), float(r.numerics.error_estimate["total"]),
-                   bool(r.numerics.converged), float(r.numerics.seconds))
+                   bool(r.numerics.converged), float(r.numerics.seconds),
+                   None if r.sublevels is None else r.sublevels.populations())
