@@ -10,6 +10,7 @@ from PySide6.QtWidgets import QGroupBox, QLabel, QScrollArea, QVBoxLayout, QWidg
 from pumpsim.lines import line
 from pumpsim.safety import cautions
 from pumpsim.schema import REQUIRED, Field, fields_of
+from pumpsim.targets import target_choices
 
 from .edits import field_key, field_state, shown_fields
 from .field_row import FieldRow
@@ -18,10 +19,12 @@ PANEL_WIDTH = 350  # narrow enough for a 1280 px screen beside the results; labe
 POWER_KEY = "power_mW"  # the beam field under which that beam's laser cautions sit
 
 
-def target_field(scheme):
-    """The target level as a choice field (the schema covers tables, not the top level)."""
-    return Field("", "target", "target", "", 1, str, REQUIRED, "target level",
-                 choices=scheme.ids)
+def target_field(scheme, sublevel=False):
+    """The target as a choice field (the schema covers tables, not the top level): the
+    levels, and in sublevel mode their hyperfine levels and sublevels too."""
+    return Field("", "target", "target", "", 1, str, REQUIRED,
+                 "target (level or sublevels)" if sublevel else "target level",
+                 choices=target_choices(scheme, sublevel))
 
 
 def beam_cautions(setup, name):
@@ -102,7 +105,7 @@ class SetupPanel(QScrollArea):
         scheme = setup.scheme
         group = self._group(column, f"Atoms · {scheme.name}")
         labels = {lv.id: f"{lv.id} — {lv.label}" if lv.label else lv.id for lv in scheme.levels}
-        self._add(group, setup, target_field(scheme), None, labels)
+        self._add(group, setup, target_field(scheme, setup.mode == "sublevel"), None, labels)
         for f in shown_fields(setup, fields_of("source")):
             self._add(group, setup, f, None)
         for b in setup.beams:

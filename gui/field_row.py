@@ -182,7 +182,7 @@ class FieldRow(QWidget):
         while self.choice.count() > listed:
             self.choice.removeItem(listed)
         index = self.choice.findData(value) if isinstance(value, str) else -1
-        if index < 0 and isinstance(value, dict):
+        if index < 0 and isinstance(value, (dict, str)):  # { linear_deg = 30 }, "5S1/2 F=2 m=max"
             self.choice.addItem(format_value(self.field, value), value)
             index = listed
         self.choice.setCurrentIndex(max(index, 0))

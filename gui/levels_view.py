@@ -4,14 +4,19 @@ Each level is a horizontal bar at its energy. Each transition has its own
 column: the lasers' driven lines as thick arrows up in the light's colour,
 the decay branches as thin arrows down (thickness grows with the branching
 ratio, labelled with it), and decays the scheme does not list as a short
-arrow to "other".
+arrow to "other". In sublevel mode with hyperfine structure each level is
+split into its hyperfine levels F (the splittings magnified, zero field), and
+a laser's arrow runs between the hyperfine levels of the component it is
+tuned to (``reference_F``), so a pump and a repump on one line are told apart.
 """
 
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
 
 from pumpsim import constants as K
+from pumpsim.hyperfine import f_values, hyperfine_shift
 from pumpsim.lines import line
+from pumpsim.targets import half_text
 
 from .plot_view import PlotView
 from .theme import base_font, readable, wavelength_colour
@@ -19,6 +24,7 @@ from .theme import base_font, readable, wavelength_colour
 LABEL_GAP = 0.045  # least vertical distance between level labels, fraction of the energy range
 LABEL_ROOM = 10.0  # x room right of the last column for the level labels (column widths)
 LEAK_DROP = 0.07  # length of an arrow to "other", fraction of the energy range
+HF_SPAN = 0.05  # the widest hyperfine splitting drawn, fraction of the energy range
 
 
 def energy_cm(level):
@@ -46,6 +52,20 @@ def columns(setup):
         if group:
             out.append(group)
     return out
+
+
+def hyperfine_offsets(setup, top):
+    """Level id -> ``[(F, drawn offset)]`` in sublevel mode with hyperfine structure,
+    else ``{}``: the zero-field shifts magnified so the widest spans ``HF_SPAN * top``."""
+    scheme = setup.scheme
+    I = scheme.nuclear_spin
+    if setup.mode != "sublevel" or not I:
+        return {}
+    shifts = {lv.id: [(F, hyperfine_shift(F, lv.J, I, lv.hfs_A, lv.hfs_B))
+                      for F in f_values(lv.J, I)] for lv in scheme.levels}
+    widest = max(max(s for _, s in v) - min(s for _, s in v) for v in shifts.values())
+    scale = HF_SPAN * top / widest if widest > 0 else 0.0
+    return {lid: [(F, s * scale) for F, s in v] for lid, v in shifts.items()}
 
 
 def spread_labels(energies, gap):
@@ -97,10 +117,27 @@ class LevelsView(PlotView):
                 x += 1.0
             x += 0.6
         right = x
+        hfs = hyperfine_offsets(setup, top)
+        goal = setup.goal
         for lv in scheme.levels:
             is_target = lv.id == setup.target_level
-            pen = pg.mkPen(t.target if is_target else t.text, width=3.5 if is_target else 2)
+            pen = pg.mkPen(t.target if is_target else t.text, width=3.5 if is_target else 2,
+                           style=Qt.DotLine if lv.id in hfs else Qt.SolidLine)
             self.plot.plot([-0.8, right - 0.2], [E[lv.id]] * 2, pen=pen)
+            levels_F = hfs.get(lv.id, ())
+            apart = all(abs(a[1] - b[1]) >= 0.5 * LABEL_GAP * top
+                        for a, b in zip(levels_F, levels_F[1:]))
+            for F, dy in levels_F:  # the hyperfine levels, magnified
+                aimed = is_target and (goal.whole_level or any(f == F for f, _ in goal.states))
+                colour = t.target if aimed else t.text
+                self.plot.plot([-0.8, right - 0.2], [E[lv.id] + dy] * 2,
+                               pen=pg.mkPen(colour, width=3.0 if aimed else 1.6))
+                if apart:
+                    self._label(f"F={half_text(F)}", -0.85, E[lv.id] + dy, colour, aimed)
+            if levels_F and not apart:  # too close to label one by one
+                Fs = [F for F, _ in levels_F]
+                self._label(f"F={half_text(Fs[0])}…{half_text(Fs[-1])}", -0.85, E[lv.id],
+                            t.text, False)
         heights = spread_labels([E[lv.id] for lv in scheme.levels], LABEL_GAP * top)
         for lv, h in zip(scheme.levels, heights):
             text = f"{lv.id}  J={lv.J:g}" + (f"  {lv.label}" if lv.label else "")
@@ -115,9 +152,14 @@ class LevelsView(PlotView):
             if kind == "laser":
                 nm = line(scheme, lo, up).wavelength * 1e9
                 colour = wavelength_colour(nm)
-                self._arrow(xs, E[lo], E[up], colour, 5.0, "t1")
-                self._text(xs, 0.5 * (E[lo] + E[up]), f"{value.name}  {nm:.1f} nm",
-                           readable(colour, t), bold=True)
+                comp = value.reference_F if lo in hfs else None
+                y0, y1, name = E[lo], E[up], f"{value.name}  {nm:.1f} nm"
+                if comp is not None:  # from F to F' of the component it is tuned to
+                    y0 += dict(hfs[lo])[comp.F]
+                    y1 += dict(hfs[up])[comp.Fp]
+                    name += f"  F={half_text(comp.F)}→F'={half_text(comp.Fp)}"
+                self._arrow(xs, y0, y1, colour, 5.0, "t1")
+                self._text(xs, 0.5 * (y0 + y1), name, readable(colour, t), bold=True)
             elif kind == "decay":
                 colour = t.level_colour(index[up], n)
                 self._arrow(xs, E[up], E[lo], colour, 1.0 + 3.0 * value, "t")
@@ -127,9 +169,18 @@ class LevelsView(PlotView):
                 end = E[up] - LEAK_DROP * top
                 self._arrow(xs, E[up], end, colour, 1.5, "x", Qt.DotLine)
                 self._text(xs + 0.35, end, f"other {value:.0%}", colour, rotate=False)
-        self.plot.getPlotItem().setXRange(-1.0, right + LABEL_ROOM, padding=0)
-        self.plot.getPlotItem().setYRange(-0.04 * top, 1.06 * top, padding=0)
-        self.set_heading(f"{scheme.name}: levels to scale in energy")
+        self.plot.getPlotItem().setXRange(-2.0 if hfs else -1.0, right + LABEL_ROOM, padding=0)
+        low = min([0.0] + [dy for v in hfs.values() for _, dy in v])  # F below the ground
+        self.plot.getPlotItem().setYRange(low - 0.04 * top, 1.06 * top, padding=0)
+        self.set_heading(f"{scheme.name}: levels to scale in energy"
+                         + ("; hyperfine levels F magnified (zero field), dotted: the "
+                            "fine-structure centroids" if hfs else ""))
+
+    def _label(self, text, x, y, colour, bold):
+        label = pg.TextItem(text, color=colour, anchor=(1, 0.5))
+        label.setFont(base_font(-1.5, bold=bold))
+        label.setPos(x, y)
+        self.plot.addItem(label)
 
     def _arrow(self, x, y0, y1, colour, width, symbol, style=Qt.SolidLine):
         self.plot.plot([x, x], [y0, y1], pen=pg.mkPen(colour, width=width, style=style))
