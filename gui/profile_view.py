@@ -91,13 +91,20 @@ class ProfileView(PlotView):
                 and self.show_choice.currentData() == "sublevels")
 
     def curve_data(self):
-        """``(names, populations (k, curves))`` of the curves drawn: each level, or each
+        """``(names, populations (k, curves))`` of the curves drawn: each level (and a
+        sublevel target's own curve, once the engine result has sublevels), or each
         sublevel then ``other``."""
         r = self.live.result
         if not self.showing_sublevels:
-            return [self._level_name(r.setup, lid) for lid in r.levels], r.profile
+            names = [self._level_name(r.setup, lid) for lid in r.levels]
+            sub = r.sublevels
+            if r.setup.goal.whole_level or sub is None:
+                return names, r.profile
+            return names + [f"target {r.setup.target}"], np.column_stack(
+                [r.profile, sub.profile[:, sub.target].sum(axis=1)])
         sub = r.sublevels
-        names = [sublevel_name(lab, r.levels[k]) for lab, k in zip(sub.labels, sub.level_of)]
+        names = [sublevel_name(lab, r.levels[k]) + (" — target" if aim else "")
+                 for lab, k, aim in zip(sub.labels, sub.level_of, sub.target)]
         return names + [self._level_name(r.setup, "other")], np.column_stack(
             [sub.profile, r.profile[:, -1]])
 
@@ -159,9 +166,10 @@ class ProfileView(PlotView):
             pens = self._sublevel_pens(r)
         else:
             pens = [pg.mkPen(t.level_colour(i, len(levels)),
-                             width=3.2 if lid == setup.target_level else 2.0,
+                             width=3.2 if lid == setup.target else 2.0,
                              style=Qt.DashLine if lid == "other" else Qt.SolidLine)
                     for i, lid in enumerate(levels)]
+            pens += [pg.mkPen(t.target, width=3.2)] * (len(names) - len(pens))  # target curve
         for pen, name, named in zip(pens, names, legend):
             self.lines.append(self.plot.plot(pen=pen, name=name if named else None))
             if named:
@@ -187,6 +195,8 @@ class ProfileView(PlotView):
             colour = shade(t.level_colour(k, len(levels)), f_index, t)
             style = SUBLEVEL_STYLES[m_index % len(SUBLEVEL_STYLES)]
             width = 1.6 if m_index < len(SUBLEVEL_STYLES) else 2.8
+            if i < len(r.sublevels.labels) and r.sublevels.target[i]:
+                width += 1.6  # the target's sublevels stand out
             pens.append(pg.mkPen(colour, width=width, style=style))
         return pens
 
@@ -194,7 +204,7 @@ class ProfileView(PlotView):
     def _level_name(setup, lid):
         if lid == "other":
             return "other (lost from the scheme)"
-        suffix = " — target" if lid == setup.target_level else ""
+        suffix = " — target" if lid == setup.target else ""
         return f"{lid}{suffix}"
 
     def curves(self):
