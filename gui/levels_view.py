@@ -16,7 +16,7 @@ from PySide6.QtCore import Qt
 from pumpsim import constants as K
 from pumpsim.hyperfine import f_values, hyperfine_shift
 from pumpsim.lines import line
-from pumpsim.targets import half_text
+from pumpsim.basis.sublevels import half
 
 from .plot_view import PlotView
 from .theme import base_font, readable, wavelength_colour
@@ -133,10 +133,10 @@ class LevelsView(PlotView):
                 self.plot.plot([-0.8, right - 0.2], [E[lv.id] + dy] * 2,
                                pen=pg.mkPen(colour, width=3.0 if aimed else 1.6))
                 if apart:
-                    self._label(f"F={half_text(F)}", -0.85, E[lv.id] + dy, colour, aimed)
+                    self._label(f"F={half(F)}", -0.85, E[lv.id] + dy, colour, aimed)
             if levels_F and not apart:  # too close to label one by one
                 Fs = [F for F, _ in levels_F]
-                self._label(f"F={half_text(Fs[0])}…{half_text(Fs[-1])}", -0.85, E[lv.id],
+                self._label(f"F={half(Fs[0])}…{half(Fs[-1])}", -0.85, E[lv.id],
                             t.text, False)
         heights = spread_labels([E[lv.id] for lv in scheme.levels], LABEL_GAP * top)
         for lv, h in zip(scheme.levels, heights):
@@ -157,7 +157,7 @@ class LevelsView(PlotView):
                 if comp is not None:  # from F to F' of the component it is tuned to
                     y0 += dict(hfs[lo])[comp.F]
                     y1 += dict(hfs[up])[comp.Fp]
-                    name += f"  F={half_text(comp.F)}→F'={half_text(comp.Fp)}"
+                    name += f"  F={half(comp.F)}→F'={half(comp.Fp)}"
                 self._arrow(xs, y0, y1, colour, 5.0, "t1")
                 self._text(xs, 0.5 * (y0 + y1), name, readable(colour, t), bold=True)
             elif kind == "decay":

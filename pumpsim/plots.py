@@ -145,12 +145,12 @@ def plot_compare(setup, routes, F, curves, path):
     ax = fig.add_subplot()
     beam = routes[0].beam
     for rank, r in enumerate(routes, 1):
-        p, t = curves[r.upper]
+        p, t = curves[r.key]
         s = r.search
         tail = (f"{s.power * 1e3:.4g} mW for F" if s.reachable
                 else f"F out of reach (ceiling {s.ceiling.transfer_fraction:.3f})")
         (ln,) = ax.plot(np.asarray(p) * 1e3, t, "-", lw=1.5,
-                        label=f"{rank}. {r.lower} → {r.upper}, {r.wavelength * 1e9:.1f} nm, "
+                        label=f"{rank}. {r.lower} → {r.key}, {r.wavelength * 1e9:.1f} nm, "
                               f"to target {r.branching_target:.2f}, to other "
                               f"{r.branching_other:.2f}: {tail}")
         if s.reachable and s.power > 0:

@@ -1,7 +1,9 @@
 """Comparing pump routes: every line out of a beam's lower level, sized and ranked.
 
 A *route* is the beam retuned to another line ``lower -> upper`` of the
-scheme, with everything else in the setup (power aside) unchanged. Each is
+scheme, with everything else in the setup (power aside) unchanged; in
+sublevel mode also to each hyperfine component and polarization
+(:mod:`pumpsim.sublevel_routes`). Each is
 sized for the same target fraction with :func:`~pumpsim.sizing.least_power_search`;
 all routes' searches run in lockstep, so their simulations share the executor.
 
@@ -25,6 +27,7 @@ from .limits import branching_limit
 from .lines import line
 from .safety import GENERAL
 from .sizing import TYPICAL_SEARCH, check_request, least_power_search, shown_cautions
+from .sublevel_routes import Variant, retuned, variants
 
 
 @dataclass(frozen=True)
@@ -46,6 +49,8 @@ class Route:
     limit : BranchingLimit
         With this route in place of the beam's line.
     cautions : list of str
+    variant : Variant
+        How the beam is retuned (line; in sublevel mode component and polarization).
     """
 
     beam: str
@@ -58,12 +63,20 @@ class Route:
     search: object
     limit: object
     cautions: list
+    variant: Variant = None
+
+    @property
+    def key(self) -> str:
+        """Unique among a beam's routes: the upper level, or in sublevel mode
+        ``"5P1/2 F=2->F'=2 sigma+"``."""
+        return self.variant.label if self.variant is not None else self.upper
 
     def to_dict(self):
         """One entry of ``compare --json``'s ``routes``."""
         beam, s = self.beam, self.search
         o = s.outcome
         return {
+            "route": self.key, **(self.variant.to_dict() if self.variant is not None else {}),
             "lower": self.lower, "upper": self.upper, "wavelength_nm": self.wavelength * 1e9,
             "sigma0_m2": self.sigma0, "branching_target": self.branching_target,
             "branching_other": self.branching_other,
@@ -97,11 +110,6 @@ def candidates(setup, beam):
                  if d.lower == b.lower and setup.scheme.level(d.upper).energy > lower.energy)
 
 
-def route_setup(setup, beam, upper):
-    """The setup with the beam retuned to ``lower -> upper``."""
-    return setup.with_value(f"beam.{beam}.transition", [setup.beam(beam).lower, upper])
-
-
 def compare(setup, beam, F, executor=None, routes=None, progress=None) -> list:
     """Size every route of ``beam`` for transfer fraction ``F`` and rank them.
 
@@ -113,7 +121,8 @@ def compare(setup, beam, F, executor=None, routes=None, progress=None) -> list:
         Target transfer fraction, 0 < F < 1.
     executor : Executor, optional
     routes : sequence of str, optional
-        Upper levels to compare (default: all candidates).
+        Upper levels to compare (default: all candidates); in sublevel mode each
+        with every component and polarization.
     progress : Progress, optional
 
     Returns
@@ -129,22 +138,23 @@ def compare(setup, beam, F, executor=None, routes=None, progress=None) -> list:
         if up not in every:
             raise InputError(f"no line from '{lower}' to '{up}' in the scheme (lines: "
                              f"{', '.join(every) or 'none'})", setup.path, "--routes", level=up)
-    variants = [route_setup(setup, beam, up) for up in chosen]
+    tunings = variants(setup, beam, chosen)
+    setups = [retuned(setup, beam, t) for t in tunings]
     if progress is not None:
-        progress.remaining_at_least(TYPICAL_SEARCH * len(variants))
+        progress.remaining_at_least(TYPICAL_SEARCH * len(setups))
     searches = Batcher(executor, progress).drive(
-        [least_power_search(v, beam, F) for v in variants])
-    scheme, target = setup.scheme, setup.target
+        [least_power_search(v, beam, F) for v in setups])
+    scheme, target = setup.scheme, setup.target_level
     out = []
-    for up, v, s in zip(chosen, variants, searches):
-        b = v.beam(beam)
+    for t, v, s in zip(tunings, setups, searches):
+        up, b = t.upper, v.beam(beam)
         ln = line(scheme, lower, up)
         G = scheme.total_rate(up)
         to_target = scheme.decay(up, target)
         out.append(Route(beam, lower, up, ln.wavelength, ln.sigma0(b.linewidth),
                          (to_target.rate / G) if to_target else 0.0,
                          scheme.unlisted_rate(up) / G, s, branching_limit(v),
-                         shown_cautions(v, beam, [s.power, s.ceiling_power])))
+                         shown_cautions(v, beam, [s.power, s.ceiling_power]), t))
     return sorted(out, key=rank_key)
 
 
@@ -170,23 +180,23 @@ def route_curves(setup, routes, executor=None, progress=None, n=CURVE_POINTS):
     Returns
     -------
     dict
-        Upper level -> ``(powers W, fractions)``, sorted by power.
+        Route key -> ``(powers W, fractions)``, sorted by power.
     """
     from .sizing import with_power
 
     found = [r.search.power for r in routes if r.search.reachable and r.search.power > 0]
     lo = min(found) / 10 if found else min(r.search.ceiling_power for r in routes) * 1e-5
     hi = max(found) * 100 if found else None
-    asks = {r.upper: np.append(np.geomspace(lo, min(hi or r.search.ceiling_power,
-                                                    r.search.ceiling_power), n),
-                               r.search.ceiling_power) for r in routes}
-    flat = [with_power(route_setup(setup, r.beam, r.upper), r.beam, p)
-            for r in routes for p in asks[r.upper]]
+    asks = {r.key: np.append(np.geomspace(lo, min(hi or r.search.ceiling_power,
+                                                  r.search.ceiling_power), n),
+                             r.search.ceiling_power) for r in routes}
+    flat = [with_power(retuned(setup, r.beam, r.variant or Variant(r.upper)), r.beam, p)
+            for r in routes for p in asks[r.key]]
     outcomes = iter(Batcher(executor, progress).run(flat))
     curves = {}
     for r in routes:
-        pts = {p: next(outcomes).transfer_fraction for p in asks[r.upper]}
+        pts = {p: next(outcomes).transfer_fraction for p in asks[r.key]}
         pts.update((p, t) for p, t in r.search.history if p > 0)
         ps = sorted(pts)
-        curves[r.upper] = (np.array(ps), np.array([pts[p] for p in ps]))
+        curves[r.key] = (np.array(ps), np.array([pts[p] for p in ps]))
     return curves

@@ -16,7 +16,11 @@ run through a :class:`~pumpsim.batch.Batcher`; the searches are generators
   saturation parameter of :data:`CEILING_SATURATION`, far beyond any
   practical laser. A Gaussian beam's wings keep growing with power, so a
   literal limit does not exist; this figure is where further power no longer
-  matters at the 1e-3 level for a saturated line.
+  matters at the 1e-3 level for a saturated line. In sublevel mode power
+  broadening can spoil a dark state (a far component comes within the
+  broadened line), so the fraction may fall again at high power: there the
+  ceiling is the best of :data:`SUBLEVEL_DECADES` + 1 powers a decade apart up
+  to that power, and the search stays below it.
 - **Branching limit** (unlimited power and time): :mod:`pumpsim.limits`.
 - **Best waist** at a given power: compass search in log waist (along and
   across the atomic beam) within bounds, from the best point of a coarse
@@ -40,6 +44,7 @@ CEILING_SATURATION = 1e4  # peak saturation parameter standing in for "unlimited
 POWER_DIGITS = 4  # least power is rounded up to this many significant figures
 POWER_RTOL = 1e-3  # ... after the bracket is this narrow, or T is within tol/4 of F
 MAX_STEPS = 40
+SUBLEVEL_DECADES = 6  # sublevel mode: decades below the ceiling power also tried
 WAIST_GRID = 5  # coarse grid per waist axis
 WAIST_RTOL = 0.02  # compass search stops at 2 % steps
 WAIST_SPAN = 5.0  # default bounds: current waist / 5 .. * 5
@@ -135,6 +140,12 @@ def least_power_search(setup, beam, F):
         return outs
 
     ceil, zero, _ = yield from look([pc, 0.0, p0])
+    if setup.mode == "sublevel":  # the fraction may fall again at high power (docstring)
+        below = [pc * 10.0**-k for k in range(1, SUBLEVEL_DECADES + 1)]
+        outs = yield from look(below)
+        best = max(zip([ceil] + outs, [pc] + below), key=lambda x: x[0].transfer_fraction)
+        if best[0].transfer_fraction > ceil.transfer_fraction:
+            ceil, pc = best
 
     def done(power, outcome):
         return PowerSearch(power, outcome, pc, ceil, zero,
@@ -150,8 +161,8 @@ def least_power_search(setup, beam, F):
     def u(T):
         return -math.log1p(-(T - T0) / span)
 
-    lo = max(p for p, o in seen.items() if o.transfer_fraction < F)
-    hi = min(p for p, o in seen.items() if o.transfer_fraction >= F)
+    lo = max(p for p, o in seen.items() if o.transfer_fraction < F and p < pc)
+    hi = min(p for p, o in seen.items() if o.transfer_fraction >= F and p <= pc)
     widths, last = [], None
     for _ in range(MAX_STEPS):
         u_lo, u_hi, u_F = (u(seen[lo].transfer_fraction), u(seen[hi].transfer_fraction), u(F))
@@ -376,17 +387,28 @@ def explain(setup, beam, F, search, limit):
             parts.append(f"{limit.final['other']:.1%} leak to 'other' (decays the scheme does "
                          "not list)")
         for d in limit.dark:
-            parts.append(f"{limit.final[d]:.1%} end in dark level '{d}' (no beam drives it: "
-                         "a repump from it would return them)")
+            why = (limit.dark_why or {}).get(d, "no beam drives it: a repump from it would "
+                                                "return them")
+            kind = "sublevel" if limit.dark_why is not None else "level"
+            parts.append(f"{limit.final[d]:.1%} end in dark {kind} '{d}' ({why})")
         rest = [k for k, v in limit.final.items()
                 if v > 1e-4 and k not in (target, "other") and k not in limit.dark]
         for k in rest:
             parts.append(f"{limit.final[k]:.1%} end in '{k}'")
+        if limit.dark_why is not None:  # sublevel mode: pumping_limit
+            return "branching", (f"F = {F:g} is above the limit {limit.fraction:.4f} at unlimited "
+                                 "time: however long the light acts, " + "; ".join(parts) + ".")
         return "branching", (f"F = {F:g} is above the branching limit {limit.fraction:.4f}: even "
                              "at unlimited power and time " + "; ".join(parts) + ".")
     b = setup.beam(beam)
     final = search.ceiling.final_populations
     parts = []
+    sub = search.ceiling.sublevel_populations
+    if sub is not None and not setup.goal.whole_level:  # where the target's level holds them
+        aim = set(setup.goal.labels(setup.scheme.nuclear_spin))
+        parts = [f"{v:.1%} end in '{k}'" for k, v in sorted(sub.items(), key=lambda kv: -kv[1])
+                 if k not in aim and v >= 1e-3]
+        final = {k: v for k, v in final.items() if k != setup.target_level}
     for k, v in sorted(final.items(), key=lambda kv: -kv[1]):
         if k == target or v < 1e-3:
             continue
@@ -398,7 +420,8 @@ def explain(setup, beam, F, search, limit):
             parts.append(f"{v:.1%} are lost to 'other'")
         else:
             parts.append(f"{v:.1%} end in '{k}'")
-    return "transit", (f"F = {F:g} is within the branching limit {limit.fraction:.4f}, but this "
+    name = "the limit at unlimited time" if limit.dark_why is not None else "the branching limit"
+    return "transit", (f"F = {F:g} is within {name} {limit.fraction:.4f}, but this "
                        f"transit reaches only {search.ceiling.transfer_fraction:.4f} at unlimited "
                        "power: " + "; ".join(parts) + ". A larger waist along the atomic beam, "
                        "slower atoms or more passes would help.")

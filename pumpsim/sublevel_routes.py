@@ -14,7 +14,7 @@ else from every ``F`` of the lower level.
 from dataclasses import dataclass
 
 from .hyperfine import Component, f_values
-from .targets import half_text
+from .basis.sublevels import half
 
 POLARIZATIONS = ("sigma+", "sigma-", "pi")
 
@@ -43,7 +43,7 @@ class Variant:
         if self.component is None:
             return self.upper
         c = self.component
-        return f"{self.upper} F={half_text(c.F)}->F'={half_text(c.Fp)} {self.polarization}"
+        return f"{self.upper} F={half(c.F)}->F'={half(c.Fp)} {self.polarization}"
 
     def to_dict(self) -> dict:
         if self.component is None:

@@ -26,6 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .angular import twice
+from .basis.sublevels import half, signed_half, sublevel_label
 from .errors import unknown
 from .hyperfine import f_values, m_values
 
@@ -34,16 +35,6 @@ KEY = re.compile(r"(?<![\w'])(F|J|m_F|m_J|m)\s*=\s*")
 
 class TargetError(ValueError):
     """A target text that names no state of the scheme (the reason, in plain words)."""
-
-
-def half_text(x) -> str:
-    """``1.5 -> '3/2'``, ``2.0 -> '2'``."""
-    t = twice(x)
-    return str(t // 2) if t % 2 == 0 else f"{t}/2"
-
-
-def signed_text(x) -> str:
-    return ("+" if x > 0 else "") + half_text(x)
 
 
 @dataclass(frozen=True)
@@ -82,13 +73,9 @@ class Target:
                   for s in range(len(inside))]
         return np.array(picked)
 
-    def describe(self, nuclear_spin) -> str:
-        """Plain words: ``|F=2, m_F=+2> of 5S1/2`` or ``the whole level 5S1/2``."""
-        if self.whole_level:
-            return f"the whole level {self.level}"
-        kets = [(f"|F={half_text(F)}, m_F={signed_text(m)}>" if nuclear_spin
-                 else f"|m_J={signed_text(m)}>") for F, m in self.states]
-        return f"{', '.join(kets)} of {self.level}"
+    def labels(self, nuclear_spin) -> tuple:
+        """Its sublevels' labels as sublevel mode names them (empty for a whole level)."""
+        return tuple(sublevel_label(self.level, F, m, nuclear_spin) for F, m in self.states)
 
 
 def _numbers(text, what):
@@ -138,7 +125,7 @@ def _clause(clause, scheme, default_level):
         if F not in allowed:
             name = "F" if I else "J"
             raise TargetError(f"level '{level}' has {name} = "
-                              f"{', '.join(half_text(x) for x in allowed)}; got {half_text(F)}")
+                              f"{', '.join(half(x) for x in allowed)}; got {half(F)}")
     if "F" not in given and "m" not in given:
         return level, None
     states = []
@@ -149,9 +136,9 @@ def _clause(clause, scheme, default_level):
             if m not in ms and "F" not in given and len(Fs) > 1:
                 continue  # m=+2 without F= means every F that has it
             if m not in ms:
-                raise TargetError(f"m={signed_text(m)} is not a sublevel of F={half_text(F)} "
-                                  f"of level '{level}' (m runs from {signed_text(-F)} to "
-                                  f"{signed_text(F)})")
+                raise TargetError(f"m={signed_half(m)} is not a sublevel of F={half(F)} "
+                                  f"of level '{level}' (m runs from {signed_half(-F)} to "
+                                  f"{signed_half(F)})")
             states.append((float(F), float(m)))
     if not states:
         raise TargetError(f"no F of level '{level}' has m={', '.join(map(str, given['m']))}")
@@ -189,8 +176,8 @@ def target_choices(scheme, sublevel: bool) -> tuple:
         if not sublevel:
             continue
         for F in f_values(lv.J, I):
-            head = f"{lv.id} F={half_text(F)}" if I else lv.id
+            head = f"{lv.id} F={half(F)}" if I else lv.id
             if I and len(f_values(lv.J, I)) > 1:
                 out.append(head)
-            out += [f"{head} m={signed_text(m)}" for m in reversed(m_values(F))]
+            out += [sublevel_label(lv.id, F, m, I) for m in reversed(m_values(F))]
     return tuple(out)

@@ -44,6 +44,13 @@ def signed_half(x: float) -> str:
     return ("+" if x > 0 else "") + half(x)
 
 
+def sublevel_label(level_id, F, m, nuclear_spin) -> str:
+    """``"5S1/2 F=2 m=+2"``, or without hyperfine structure ``"g m=-1/2"``."""
+    if nuclear_spin:
+        return f"{level_id} F={half(F)} m={signed_half(m)}"
+    return f"{level_id} m={signed_half(m)}"
+
+
 class SublevelBasis(Basis):
     """Magnetic sublevels of every level (see module docstring).
 
@@ -76,8 +83,7 @@ class SublevelBasis(Basis):
                     F_of.append(F)
                     m_of.append(m)
                     shift.append(hfs + gF * m * MU_B_HZ_PER_T * self.field)
-                    name = f"F={half(F)} m={signed_half(m)}" if I else f"m={signed_half(m)}"
-                    labels.append(f"{lv.id} {name}")
+                    labels.append(sublevel_label(lv.id, F, m, I))
         self.labels = tuple(labels) + ("other",)
         self.level_of = np.array(level_of + [len(scheme.levels)])
         self.F = np.array(F_of + [np.nan])

@@ -53,25 +53,30 @@ def handle(args):
 def summary(setup, beam, F, routes, warnings):
     """Readable table of ranked routes."""
     b = setup.beam(beam)
+    names = [f"{r.lower} → {r.key}" for r in routes]
+    w = max([10] + [len(n) for n in names])  # sublevel routes name component and polarization
     out = [f"setup   {setup.path}",
            f"routes for beam '{beam}' out of '{b.lower}' into target '{setup.target}', "
            f"F = {F:g}, waist {b.waist * 1e3:.4g} × {b.waist_across * 1e3:.4g} mm", "",
-           f"  {'#':>2} {'line':<10} {'λ (nm)':>8} {'σ0 (m²)':>10} {'→target':>8} "
+           f"  {'#':>2} {'line' if w == 10 else 'route':<{w}} {'λ (nm)':>8} {'σ0 (m²)':>10} {'→target':>8} "
            f"{'→other':>7} {'power (mW)':>11} {'ceiling':>8} {'limit':>7} {'photons':>8} "
            f"{'defl. (mrad)':>12}"]
-    for i, r in enumerate(routes, 1):
+    for i, (r, name) in enumerate(zip(routes, names), 1):
         d = r.to_dict()
         power = f"{d['power_mW']:.4g}" if r.search.reachable else "unreachable"
         photons = "-" if d["photons_per_atom"] is None else f"{d['photons_per_atom']:.3g}"
         defl = "-" if d["deflection_mrad"] is None else f"{d['deflection_mrad']:.4g}"
-        out.append(f"  {i:>2} {r.lower + ' → ' + r.upper:<10} {d['wavelength_nm']:8.2f} "
+        out.append(f"  {i:>2} {name:<{w}} {d['wavelength_nm']:8.2f} "
                    f"{d['sigma0_m2']:10.3g} {d['branching_target']:8.3f} "
                    f"{d['branching_other']:7.3f} {power:>11} {d['ceiling']:8.4f} "
                    f"{d['branching_limit']:7.4f} {photons:>8} {defl:>12}")
     if not all(r.to_dict()["converged"] for r in routes):
         out += ["", "WARNING: some of these simulations did not meet the numerical tolerance"]
+    limit = ("unlimited time, where dark sublevels hold the atoms (docs/sublevel.md); →target: "
+             f"branching into the target's level '{setup.target_level}'"
+             if setup.mode == "sublevel" else "unlimited power and time")
     out += ["", "power: least power reaching F at the setup's waist (re-simulated); ceiling: "
-                "unlimited power, this transit; limit: unlimited power and time.",
+                f"unlimited power, this transit; limit: {limit}.",
             "ranked: routes reaching F first, by least power; then by ceiling."]
     out += [""] + ["CAUTION: " + c for c in warnings]
     return "\n".join(out)

@@ -84,7 +84,9 @@ def summary(r):
                        if k != setup.target and v > 5e-5)
     out += [f"ceiling at unlimited power, this transit: {s.ceiling.transfer_fraction:.5f}  "
             f"(simulated at {s.ceiling_power * 1e3:.4g} mW, peak saturation parameter 1e4)",
-            f"branching limit at unlimited power and time: {lim.fraction:.5f}"
+            (f"limit at unlimited time, set by dark sublevels: {lim.fraction:.5f}"
+             if setup.mode == "sublevel" else
+             f"branching limit at unlimited power and time: {lim.fraction:.5f}")
             + (f"  (the rest: {losses})" if losses else "")]
     if w is not None:
         bounds = [f"{k} at its {v} bound" for k, v in w.at_bound.items() if v]
