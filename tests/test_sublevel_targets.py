@@ -346,3 +346,26 @@ def test_sublevel_routes_differ_by_component_and_polarization():
         "5P3/2", "sigma+", 2.0, 3.0)
     level = setup.with_value("target", "5S1/2").with_value("mode", "level")
     assert [v.label for v in variants(level, "pump", ["5P1/2"])] == ["5P1/2"]
+
+
+def test_compare_ranks_the_polarization_that_pumps_into_the_target_first():
+    # sigma+ light pumps towards m = +F, sigma- towards m = -F (Happer, Rev. Mod. Phys. 44,
+    # 169, 1972): for the target |2,+2> the sigma+ routes must lead and the sigma- ones
+    # end, with a limit at unlimited time of zero
+    from pumpsim.routes import compare
+
+    beams = [dict(name="pump", transition=["5S1/2", "5P1/2"], reference_F=[2, 2],
+                  polarization="sigma+", power_mW=0.01, waist_mm=1.0),
+             dict(name="repump", transition=["5S1/2", "5P1/2"], reference_F=[1, 2],
+                  polarization="sigma+", power_mW=0.05, waist_mm=1.0)]
+    setup = rb_setup(beams, target="5S1/2 F=2 m=+2", numerics={"tolerance": 1e-3})
+    routes = compare(setup, "pump", 0.9, routes=["5P1/2"])
+    keys = [r.key for r in routes]
+    assert len(keys) == 6 and keys[0] == "5P1/2 F=2->F'=2 sigma+"
+    assert routes[0].search.reachable and routes[0].limit.fraction == pytest.approx(1, abs=1e-9)
+    for r in routes:
+        if r.key.endswith("sigma-"):
+            assert not r.search.reachable and r.limit.fraction < 1e-6
+            assert keys.index(r.key) >= 3
+    d = routes[0].to_dict()
+    assert d["route"] == keys[0] and d["polarization"] == "sigma+" and d["reference_F"] == [2, 2]
