@@ -22,9 +22,10 @@ STYLES = (Qt.SolidLine, Qt.DashLine, Qt.DashDotLine, Qt.DotLine)
 
 
 class RoutesView(StudyView):
-    """Signals: ``use_route(beam, lower, upper)`` when the user picks a route."""
+    """Signals: ``use_route(edits)`` when the user picks a route: the ``(key, value)``
+    edits that put the study beam on it."""
 
-    use_route = Signal(str, str, str)
+    use_route = Signal(object)
 
     def __init__(self, parent=None):
         super().__init__(parent, caption_lines=6, min_height=620)
@@ -99,13 +100,13 @@ class RoutesView(StudyView):
         for k, r in enumerate(self.routes):
             f = self.per_route()[k]
             ok = np.isfinite(f)
-            current = r.upper == now.upper
+            current = r.is_set(now)
             colour = readable(wavelength_colour(r.wavelength * 1e9), t)
             style = STYLES[k % len(STYLES)]
             if ok.any():
                 self.plot.plot(self.powers[ok], f[ok], pen=pg.mkPen(colour, width=3 if current
                                                                      else 2, style=style))
-            key.append(key_entry(f"{r.lower} → {r.upper} {r.wavelength * 1e9:.1f} nm"
+            key.append(key_entry(f"{r.name} {r.wavelength * 1e9:.1f} nm"
                                  + (" (set)" if current else ""), colour, style))
         self.set_key(key)
         self.plot.addItem(pg.InfiniteLine(self.wanted, angle=0, pen=pg.mkPen(t.target, style=Qt.DotLine),
@@ -125,7 +126,7 @@ class RoutesView(StudyView):
                                     + shown * self.table.verticalHeader().defaultSectionSize())
         warnings = []
         for i, (r, need, at) in enumerate(self.ranked):
-            cells = (f"{r.lower} → {r.upper}", f"{r.wavelength * 1e9:.2f}", f"{r.sigma0:.3g}",
+            cells = (r.name, f"{r.wavelength * 1e9:.2f}", f"{r.sigma0:.3g}",
                      f"{r.branching_target:.1%}", f"{r.branching_other:.1%}",
                      "…" if np.isnan(at["fraction"]) else f"{at['fraction']:.2%}",
                      self._need_text(need, self.per_route()[self.routes.index(r)]),
@@ -135,10 +136,12 @@ class RoutesView(StudyView):
                 item = QTableWidgetItem(text)
                 item.setTextAlignment((Qt.AlignLeft if c == 0 else Qt.AlignRight) | Qt.AlignVCenter)
                 self.table.setItem(i, c, item)
-            routed = setup.with_value(f"beam.{beam}.transition", [r.lower, r.upper])
+            routed = setup
+            for key, value in r.edits(beam):
+                routed = routed.with_value(key, value)
             powers = None if need is None else {beam: need * 1e-3}
             warnings += [w for w in cautions(routed, powers) if w.startswith(f"{beam}: ")]
-        unreached = [f"{r.lower} → {r.upper}" for r, need, _ in self.ranked
+        unreached = [r.name for r, need, _ in self.ranked
                      if need is None and np.isfinite(self.per_route()[self.routes.index(r)]).all()]
         text = ("Ranked by the least power that reaches the goal (interpolated on the curves), "
                 "then by the transfer at the set power. ")
@@ -156,7 +159,7 @@ class RoutesView(StudyView):
         row = self.table.currentRow()
         if self.plan is not None and 0 <= row < len(self.ranked):
             r = self.ranked[row][0]
-            self.use_route.emit(self.plan.beam, r.lower, r.upper)
+            self.use_route.emit(r.edits(self.plan.beam))
 
     def curves(self):
         header = ["lower", "upper", "wavelength_nm", "power_mW", "fraction_quick",
@@ -165,5 +168,8 @@ class RoutesView(StudyView):
             return header, []
         q = self.values["quick"]["fraction"].reshape(len(self.routes), len(self.powers))
         e = self.values["engine"]["fraction"].reshape(len(self.routes), len(self.powers))
-        return header, [[r.lower, r.upper, r.wavelength * 1e9, p, q[k, j], e[k, j]]
-                        for k, r in enumerate(self.routes) for j, p in enumerate(self.powers)]
+        tuned = any(r.variant for r in self.routes)  # sublevel mode: component, polarization
+        extra = [["route"], lambda r: [r.name]] if tuned else [[], lambda r: []]
+        return header + extra[0], [
+            [r.lower, r.upper, r.wavelength * 1e9, p, q[k, j], e[k, j]] + extra[1](r)
+            for k, r in enumerate(self.routes) for j, p in enumerate(self.powers)]

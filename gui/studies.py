@@ -2,7 +2,8 @@
 
 The window's three study views need: transfer against one beam's power,
 the power x waist map, and the candidate routes (every line out of the
-beam's lower level). This module is the window's whole interface to them,
+beam's lower level; in sublevel mode each also by hyperfine component and
+polarization). This module is the window's whole interface to them,
 so it can later be swapped for the engine's own sizing and route modules:
 
 * :func:`power_axis`, :func:`waist_axis`: the grids, around the setup's values;
@@ -19,6 +20,7 @@ import numpy as np
 
 from pumpsim.lines import line
 from pumpsim.schema import fields_of
+from pumpsim.sublevel_routes import variants
 
 WAIST_DECADES = 0.6  # waist grid: the set waist times 10**(-0.6 ... +0.6)
 POWER_POINTS, MAP_WAISTS = 16, 8  # the map uses the power tab's powers
@@ -66,7 +68,7 @@ def map_changes(beam, powers, waists):
 
 def route_changes(beam, routes, powers):
     """One edit list per (route, power), route-major."""
-    return [[(f"beam.{beam}.transition", [r.lower, r.upper]), (f"beam.{beam}.power_mW", float(p))]
+    return [r.edits(beam) + [(f"beam.{beam}.power_mW", float(p))]
             for r in routes for p in powers]
 
 
@@ -95,7 +97,8 @@ def sweep(setup, changes, evaluate):
 
 @dataclass(frozen=True)
 class Route:
-    """One candidate line for a beam: its lower level to ``upper``.
+    """One candidate line for a beam: its lower level to ``upper``; in sublevel mode
+    also a hyperfine component and a polarization (:mod:`pumpsim.sublevel_routes`).
 
     Parameters
     ----------
@@ -105,7 +108,10 @@ class Route:
     sigma0 : float
         Peak cross-section with the beam's laser linewidth, m^2.
     branching_target, branching_other : float
-        Fractions of the upper level's decays into the setup's target and into ``other``.
+        Fractions of the upper level's decays into the setup's target (its level) and
+        into ``other``.
+    variant : Variant or None
+        Sublevel mode: the component and polarization.
     """
 
     lower: str
@@ -114,7 +120,24 @@ class Route:
     sigma0: float
     branching_target: float
     branching_other: float
+    variant: object = None
 
+    @property
+    def name(self):
+        """``"g → e2"``, or ``"5S1/2 → 5P1/2 F=2->F'=2 sigma+"``."""
+        return f"{self.lower} → {self.variant.label if self.variant else self.upper}"
+
+    def edits(self, beam):
+        """The ``(key, value)`` edits that put ``beam`` on this route."""
+        out = [(f"beam.{beam}.transition", [self.lower, self.upper])]
+        return out + [(f"beam.{beam}.{k}", v) for k, v in (self.variant.to_dict() if self.variant
+                                                          else {}).items()]
+
+    def is_set(self, beam):
+        """Whether ``beam`` (a Beam) is on this route."""
+        v = self.variant
+        return beam.upper == self.upper and (v is None or (
+            beam.polarization.kind == v.polarization and beam.reference_F == v.component))
 
 def route_list(setup, beam):
     """Every line of the scheme out of ``beam``'s lower level, in order of wavelength."""
@@ -125,10 +148,12 @@ def route_list(setup, beam):
             continue
         G = scheme.total_rate(d.upper)
         to_target = scheme.decay(d.upper, setup.target_level)
-        out.append(Route(b.lower, d.upper, d.wavelength,
-                         line(scheme, b.lower, d.upper).sigma0(b.linewidth),
-                         to_target.rate / G if to_target else 0.0,
-                         scheme.unlisted_rate(d.upper) / G))
+        for v in variants(setup, beam, [d.upper]):
+            out.append(Route(b.lower, d.upper, d.wavelength,
+                             line(scheme, b.lower, d.upper).sigma0(b.linewidth),
+                             to_target.rate / G if to_target else 0.0,
+                             scheme.unlisted_rate(d.upper) / G,
+                             v if v.component is not None else None))
     return sorted(out, key=lambda r: r.wavelength)
 
 

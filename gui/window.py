@@ -97,8 +97,7 @@ class MainWindow(QMainWindow):
         self.live.failed.connect(self._on_failed)
         self.studies.progressed.connect(self._on_study_point)
         self.studies.failed.connect(self.message.show_message)
-        self.routes.use_route.connect(
-            lambda beam, lo, up: self.apply_edit(f"beam.{beam}.transition", [lo, up]))
+        self.routes.use_route.connect(self.apply_edits)
         self.tabs.currentChanged.connect(self._tab_changed)
         self.goal.valueChanged.connect(self._goal_changed)
         self.study_beam.activated.connect(lambda _: self._refresh_tab())
@@ -225,6 +224,26 @@ class MainWindow(QMainWindow):
             # said under the control; a status-bar line would outlive the next change
             self.panel.show_error(key, f"{exc.reason} — nothing was changed.")
             return False
+        self.undone.append(self.setup)
+        self.redone.clear()
+        self.set_setup(new)
+        return True
+
+    def apply_edits(self, edits):
+        """Change several values as one step (one undo); a bad one changes nothing.
+
+        Returns
+        -------
+        bool
+            Whether the setup changed.
+        """
+        new = self.setup
+        for key, value in edits:
+            try:
+                new = apply_edit(new, key, value)
+            except InputError as exc:
+                self.panel.show_error(key, f"{exc.reason} — nothing was changed.")
+                return False
         self.undone.append(self.setup)
         self.redone.clear()
         self.set_setup(new)

@@ -117,3 +117,21 @@ def test_level_diagram_draws_hyperfine_levels_and_each_lasers_component(window, 
     assert target.startswith("|F=2, m_F=+2⟩")
     assert widths[target] > max(v for n, v in widths.items() if n != target)
     assert np.isfinite(list(widths.values())).all()
+
+
+def test_routes_tab_offers_components_and_polarizations_and_applies_one(window, qtbot):
+    # one route per line, hyperfine component F=2 -> F' (|F - F'| <= 1) and polarization
+    # (sigma+, sigma-, pi): 5P1/2 has F' = 1, 2 and 5P3/2 F' = 1, 2, 3 (angular-momentum
+    # selection rules; common practice, no source)
+    from pumpsim_gui import studies
+
+    w = window
+    routes = studies.route_list(w.setup, "pump")
+    assert len(routes) == (2 + 3) * 3 and len({r.name for r in routes}) == len(routes)
+    (now,) = [r for r in routes if r.is_set(w.setup.beam("pump"))]
+    assert now.name == "5S1/2 → 5P1/2 F=2->F'=2 sigma+"
+    cyc = next(r for r in routes if r.name == "5S1/2 → 5P3/2 F=2->F'=3 sigma+")
+    assert w.apply_edits(cyc.edits("pump"))
+    b = w.setup.beam("pump")
+    assert (b.upper, b.polarization.kind, b.reference_F.Fp) == ("5P3/2", "sigma+", 3.0)
+    assert w.undo() and w.setup.beam("pump").upper == "5P1/2"  # one step
