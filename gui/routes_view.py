@@ -42,6 +42,8 @@ class RoutesView(StudyView):
         # every column shares the width (none hides behind a scrollbar); the table and
         # the plot share the height through a splitter the user can move
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
+        # sublevel routes have long names (line, component, polarization): room for them
+        self.table.horizontalHeader().setSectionResizeMode(0, QHeaderView.ResizeToContents)
         self.table.horizontalHeader().setMinimumSectionSize(40)
         self.table.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
         self.table.setWordWrap(True)
