@@ -29,17 +29,13 @@ The answer does not depend on the overall power, only on the beams' ratios,
 polarizations and detunings: it is the ceiling the dark states set.
 """
 
-import math
-
 import numpy as np
 
-from . import constants as K
 from .basis import SublevelBasis
-from .beam_shapes import shape_of
 from .limits import BranchingLimit, flight_time, long_run
 from .lines import line
 from .model import initial_level_populations
-from .sublevel_report import DARK_RELATIVE
+from .sublevel_report import DARK_RELATIVE, rest_rates
 
 HELD = 1e-4  # a non-target sublevel holding this much at the end is reported
 
@@ -48,12 +44,9 @@ def excitation_matrix(setup, basis) -> np.ndarray:
     """``X[k, i]``: weak-light excitation rate from state ``i`` to ``k``, 1/s."""
     X = np.zeros((basis.size, basis.size))
     for b in setup.beams:
-        ln = line(setup.scheme, b.lower, b.upper)
-        gamma = ln.gamma(b.linewidth)
-        flux = shape_of(b).peak_intensity * b.passes / (K.hbar * ln.omega)
-        for c in basis.couplings(b):
-            lorentz = 1 / (1 + (4 * math.pi * (b.detuning - c.shift) / gamma) ** 2)
-            X[c.upper, c.lower] += c.strength * ln.sigma0(b.linewidth) * flux * lorentz
+        cs = basis.couplings(b)
+        for c, rate in zip(cs, rest_rates(b, line(setup.scheme, b.lower, b.upper), cs)):
+            X[c.upper, c.lower] += rate * b.passes
     return X
 
 

@@ -18,6 +18,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import sparse
 
+from . import constants as K
+from .beam_shapes import shape_of
 from .sparse_model import SparseRateModel
 
 DARK_RELATIVE = 0.01
@@ -101,22 +103,26 @@ PAIR_CONVENTION = ("two-level: s = I/I_sat = 2 Omega^2/Gamma^2 of the strongest 
 LEVEL_CONVENTION = "fine-structure level, isotropic light (level mode's I_sat)"
 
 
-def pair_saturation(model, beam_index) -> dict:
-    """The sublevel pair a beam drives hardest and its saturation figures.
+def rest_rates(beam, ln, couplings) -> np.ndarray:
+    """Excitation rate of each coupling for atoms at rest on the beam's axis at its peak
+    (one pass, weak light), 1/s: ``sigma0 strength I / (hbar omega)`` times the
+    Lorentzian of the pair's detuning, as in the rate model."""
+    gamma = ln.gamma(beam.linewidth)
+    flux = shape_of(beam).peak_intensity / (K.hbar * ln.omega)
+    return np.array([ln.sigma0(beam.linewidth) * c.strength * flux
+                     / (1 + (4 * np.pi * (beam.detuning - c.shift) / gamma) ** 2)
+                     for c in couplings])
 
-    The pair with the largest ``strength / (1 + (2 Delta/gamma)^2)`` at the
-    beam's detuning for atoms at rest (``gamma`` the line's width with the
-    laser's), reported with its own ``I_sat`` (:meth:`~pumpsim.lines.Line.
-    pair_saturation_intensity`) and ``s`` at the beam's peak intensity.
-    """
+
+def pair_saturation(model, beam_index) -> dict:
+    """The sublevel pair a beam drives hardest (:func:`rest_rates`) and its saturation
+    figures: its own ``I_sat`` (:meth:`~pumpsim.lines.Line.pair_saturation_intensity`)
+    and ``s`` at the beam's peak intensity."""
     b, ln = model.setup.beams[beam_index], model.lines[beam_index]
     cs = model.basis.couplings(b)
     if not cs:
         return {}
-    gamma = ln.gamma(b.linewidth)
-    lorentz = [1 / (1 + (4 * np.pi * (b.detuning - c.shift) / gamma) ** 2) for c in cs]
-    best = max(range(len(cs)), key=lambda j: cs[j].strength * lorentz[j])
-    c = cs[best]
+    c = cs[int(np.argmax(rest_rates(b, ln, cs)))]
     isat = ln.pair_saturation_intensity(c.strength)
     lab = model.basis.labels
     return {"pair": f"{lab[c.lower]} -> {lab[c.upper]}",
