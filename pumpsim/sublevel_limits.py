@@ -35,7 +35,7 @@ from .basis import SublevelBasis
 from .limits import BranchingLimit, flight_time, long_run
 from .lines import line
 from .model import initial_level_populations
-from .sublevel_report import DARK_RELATIVE, rest_rates
+from .sublevel_report import DARK_RELATIVE, NEEDS_POLARIZATION, NEEDS_REPUMP, rest_rates
 
 HELD = 1e-4  # a non-target sublevel holding this much at the end is reported
 
@@ -88,9 +88,7 @@ def pumping_limit(setup) -> BranchingLimit:
         dark.append(labels[s])
         group = (basis.level_of[:-1] == basis.level_of[s]) & (basis.F[:-1] == basis.F[s])
         unreached = bool((out[:-1][group] < DARK_RELATIVE * bright).all())
-        why[labels[s]] = ("no beam is tuned to its hyperfine level: a repump would return them"
-                          if unreached else "the light's polarization hardly excites it: "
-                          "another polarization or a second beam would")
+        why[labels[s]] = NEEDS_REPUMP if unreached else NEEDS_POLARIZATION
     final["other"] = float(p[-1])
     return BranchingLimit(final[setup.target], final, tuple(dark),
                           tuple(lab for lab, s in zip(labels, slow) if s), why)

@@ -61,9 +61,9 @@ class SublevelReport:
     profile: np.ndarray
     exposure: np.ndarray
     dark: np.ndarray
-    target: np.ndarray = None
-    unreached: np.ndarray = None
-    saturation: dict = None
+    target: np.ndarray
+    unreached: np.ndarray
+    saturation: dict
 
     @property
     def target_population(self) -> float:
@@ -171,14 +171,17 @@ def sublevel_report(model, propagator, nodes, z) -> SublevelReport:
                           profile[:, : S - 1], exposure, dark, target, unreached, saturation)
 
 
+# what frees atoms from a dark sublevel that is not the target
+NEEDS_REPUMP = "no beam is tuned to its hyperfine level: a repump would bring them back"
+NEEDS_POLARIZATION = ("the light's polarization hardly excites it: another polarization "
+                      "(or a second beam) would")
+
+
 def dark_verdict(report, s) -> str:
     """Why sublevel ``s`` is dark and whether that is wanted."""
-    if report.target is not None and report.target[s]:
+    if report.target[s]:
         return "the target: wanted"
-    if report.unreached is not None and report.unreached[s]:
-        return "leak: no beam is tuned to its hyperfine level; add a repump"
-    return ("leak: the polarization cannot excite it; another polarization (or a second "
-            "beam) reaches it")
+    return "leak: " + (NEEDS_REPUMP if report.unreached[s] else NEEDS_POLARIZATION)
 
 
 def sublevel_summary(report: SublevelReport, shown=0.001) -> list:
@@ -187,7 +190,7 @@ def sublevel_summary(report: SublevelReport, shown=0.001) -> list:
     lines = ["final sublevel populations (those above 0.001; * target):"]
     for s, (lab, p) in enumerate(report.populations().items()):
         if p >= shown:
-            mark = "*" if report.target is not None and report.target[s] else " "
+            mark = "*" if report.target[s] else " "
             lines.append(f"  {lab:<24}{mark} {p:10.6f}")
     held = [s for s in np.nonzero(report.dark)[0] if report.final[s] >= shown]
     if not held:
@@ -199,7 +202,7 @@ def sublevel_summary(report: SublevelReport, shown=0.001) -> list:
         for s in held:
             lines.append(f"  {report.labels[s]:<24} {report.final[s]:10.6f}  "
                          f"{dark_verdict(report, s)}")
-        if any(not report.target[s] for s in held) if report.target is not None else True:
+        if not report.target[held].all():
             lines.append("  (in the lab a field across the quantization axis also remixes "
                          "dark sublevels; it is not modelled, see docs/sublevel.md)")
     if report.saturation:
