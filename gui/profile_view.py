@@ -103,8 +103,9 @@ class ProfileView(PlotView):
             return names + [f"target {r.setup.target}"], np.column_stack(
                 [r.profile, sub.profile[:, sub.target].sum(axis=1)])
         sub = r.sublevels
+        aimed = sub.target & (not r.setup.goal.whole_level)  # a whole level has its own curve
         names = [sublevel_name(lab, r.levels[k]) + (" — target" if aim else "")
-                 for lab, k, aim in zip(sub.labels, sub.level_of, sub.target)]
+                 for lab, k, aim in zip(sub.labels, sub.level_of, aimed)]
         return names + [self._level_name(r.setup, "other")], np.column_stack(
             [sub.profile, r.profile[:, -1]])
 
@@ -195,7 +196,8 @@ class ProfileView(PlotView):
             colour = shade(t.level_colour(k, len(levels)), f_index, t)
             style = SUBLEVEL_STYLES[m_index % len(SUBLEVEL_STYLES)]
             width = 1.6 if m_index < len(SUBLEVEL_STYLES) else 2.8
-            if i < len(r.sublevels.labels) and r.sublevels.target[i]:
+            if (i < len(r.sublevels.labels) and r.sublevels.target[i]
+                    and not r.setup.goal.whole_level):
                 width += 1.6  # the target's sublevels stand out
             pens.append(pg.mkPen(colour, width=width, style=style))
         return pens
