@@ -89,7 +89,7 @@ def setup_from_document(doc: dict, file=None, scheme=None, text_=None) -> Setup:
     if not goal.whole_level and mode["mode"] != "sublevel":
         raise InputError("names sublevels, which only sublevel mode resolves: add "
                          "mode = \"sublevel\" or target the whole level "
-                         f"'{goal.level}'", file, None, "target", target)
+                         f"'{goal.level}'", file, None, "target")
     return Setup(scheme, target, source, beams, numerics, file, doc, text_, **mode)
 
 
