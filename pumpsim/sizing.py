@@ -140,17 +140,17 @@ def least_power_search(setup, beam, F):
         return outs
 
     ceil, zero, _ = yield from look([pc, 0.0, p0])
+
+    def done(power, outcome):
+        return PowerSearch(power, outcome, pc, ceil, zero,
+                           tuple((p, o.transfer_fraction) for p, o in seen.items()))
+
     if setup.mode == "sublevel":  # the fraction may fall again at high power (docstring)
         below = [pc * 10.0**-k for k in range(1, SUBLEVEL_DECADES + 1)]
         outs = yield from look(below)
         best = max(zip([ceil] + outs, [pc] + below), key=lambda x: x[0].transfer_fraction)
         if best[0].transfer_fraction > ceil.transfer_fraction:
             ceil, pc = best
-
-    def done(power, outcome):
-        return PowerSearch(power, outcome, pc, ceil, zero,
-                           tuple((p, o.transfer_fraction) for p, o in seen.items()))
-
     if zero.transfer_fraction >= F:
         return done(0.0, zero)
     if ceil.transfer_fraction < F:
