@@ -79,6 +79,13 @@ def write_result(path, result, command=""):
             d = r.create_dataset(name, data=np.array(values, dtype=float))
             d.attrs["beams"] = beams
             d.attrs["units"] = unit
+        g = r.create_group("beam_figures")  # per beam (columns of attribute "beams")
+        figures = result.beam_figures()
+        from .beam_figures import UNITS
+        g.attrs["beams"] = list(figures)
+        for k, (scale, unit, _) in UNITS.items():
+            g.create_dataset(k, data=[figures[n].get(k, np.nan) * scale for n in figures]
+                             ).attrs["units"] = unit
         p = f.create_group("profile")
         p.create_dataset("z_mm", data=result.z * 1e3).attrs["units"] = "mm"
         d = p.create_dataset("populations", data=result.profile)

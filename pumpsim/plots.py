@@ -57,8 +57,9 @@ def _plain_log(axis):
     axis.set_minor_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
 
 
-def _legend_below(ax):
-    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.11), fontsize=7.5, frameon=False)
+def _legend_below(ax, ncol=1):
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.11), fontsize=7.5, frameon=False,
+              ncol=ncol)
 
 
 def _line_text(setup, beam):
@@ -171,6 +172,35 @@ def plot_compare(setup, routes, F, curves, path):
     ax.grid(True, which="both", alpha=0.3)
     _footer(fig, ["Ranking: routes reaching F first, by least power; then by ceiling."],
             all_cautions(routes))
+    _save(fig, path)
+
+
+def plot_profile(result, path, cautions=()):
+    """Ensemble-mean populations of every level along z, with each beam's 1/e² extent."""
+    check_path(path)
+    setup = result.setup
+    fig = _figure((8.0, 5.8))
+    ax = fig.add_subplot()
+    z = result.z * 1e3
+    for j, lid in enumerate(result.levels):
+        ax.plot(z, result.profile[:, j], lw=2.2 if lid == setup.target else 1.3,
+                ls="-" if j < 10 else "--",
+                label=f"{lid} (target)" if lid == setup.target else lid)
+    for b in setup.beams:
+        half = b.waist / np.sin(b.angle) * 1e3
+        ax.axvspan(b.position * 1e3 - half, b.position * 1e3 + half, color="0.5", alpha=0.12)
+        ax.annotate(f"{b.name}: {b.lower} → {b.upper}, {b.power * 1e3:.4g} mW",
+                    (b.position * 1e3, 1.0), xycoords=("data", "axes fraction"), ha="center",
+                    va="bottom", fontsize=7.5)
+    ax.set_xlabel("position along the atomic beam z (mm)")
+    ax.set_ylabel("population (ensemble mean)")
+    ax.set_ylim(-0.02, 1.02)
+    ax.grid(True, alpha=0.3)
+    ax.set_title(f"{setup.scheme.name}: {Path(setup.path or 'setup').name}; transfer into "
+                 f"'{setup.target}' {result.transfer_fraction:.4f}\n", fontsize=9)
+    _legend_below(ax, ncol=min(len(result.levels), 6))
+    _footer(fig, ["Shaded: each beam's 1/e² intensity half-width either side of its centre."],
+            cautions)
     _save(fig, path)
 
 
