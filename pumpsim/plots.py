@@ -69,34 +69,55 @@ def _line_text(setup, beam):
 
 
 def plot_size(sizing, path):
-    """Power x waist map with the target contour, the least power, the setup and the best waist."""
+    """Power x waist-along map at one waist across, with the target contour and the
+    operating points that share that waist across (others are listed below it)."""
     check_path(path)
     s, setup, beam, F = sizing.search, sizing.setup, sizing.beam, sizing.target_fraction
     b = setup.beam(beam)
     m = sizing.map
-    fig = _figure((8.0, 7.4))
+    fig = _figure((8.0, 7.6))
     ax = fig.add_subplot()
     P, W, T = m["power"] * 1e3, m["waist"] * 1e3, m["fraction"]
+    across = m["across"]
     mesh = ax.pcolormesh(P, W, T, shading="nearest", cmap="viridis")
     fig.colorbar(mesh, ax=ax, label=f"transfer fraction into '{setup.target}'")
     if T.min() < F < T.max():
         cs = ax.contour(P, W, T, levels=[F], colors="white", linestyles="--", linewidths=1.5)
         ax.clabel(cs, fmt={F: f"F = {F:g}"}, fontsize=8)
+    elsewhere = []  # points whose waist across is not the map's: not drawn on it
+
+    def mark(power, waist, waist_across, style, label):
+        if abs(waist_across / across - 1) <= 1e-6:
+            ax.plot(power * 1e3, waist * 1e3, label=label, **style)
+        else:
+            elsewhere.append(f"{label} (waist across {waist_across * 1e3:.3g} mm: not on "
+                             "this map)")
+
+    j = sizing.joint
+    if j is not None:
+        bound = [f"{k} at its {v} bound" for k, v in j.at_bound.items() if v]
+        mark(j.power, j.waist, j.waist_across,
+             dict(marker="*", ls="none", ms=16, mfc="gold", mec="black"),
+             f"least power over waists: {j.power * 1e3:.4g} mW at {j.waist * 1e3:.3g} mm "
+             f"along (re-simulated {j.outcome.transfer_fraction:.4f})"
+             + (f" ({'; '.join(bound)})" if bound else ""))
     if s.reachable and s.power > 0:
-        ax.plot(s.power * 1e3, b.waist * 1e3, "*", ms=15, mfc="gold", mec="black",
-                label=f"least power for F at the setup's waist: {s.power * 1e3:.4g} mW "
-                      f"(re-simulated {s.outcome.transfer_fraction:.4f})")
+        mark(s.power, b.waist, b.waist_across,
+             dict(marker="D", ls="none", ms=8, mfc="orange", mec="black"),
+             f"least power at the setup's waist: {s.power * 1e3:.4g} mW "
+             f"(re-simulated {s.outcome.transfer_fraction:.4f})")
     inside = P[0] <= b.power * 1e3 <= P[-1] and W[0] <= b.waist * 1e3 <= W[-1]
-    ax.plot(b.power * 1e3, b.waist * 1e3, "o", ms=8, mfc="none", mec="red", mew=2,
-            label=f"setup: {b.power * 1e3:.4g} mW, waist {b.waist * 1e3:.3g} mm"
-                  + ("" if inside else " (outside the map)"))
+    mark(b.power, b.waist, b.waist_across,
+         dict(marker="o", ls="none", ms=8, mfc="none", mec="red", mew=2),
+         f"setup: {b.power * 1e3:.4g} mW, waist {b.waist * 1e3:.3g} mm"
+         + ("" if inside else " (outside the map)"))
     w = sizing.waist
-    if w is not None:
-        bound = [f"{k} at its {v} bound" for k, v in w.at_bound.items() if v]
-        ax.plot(w.power * 1e3, w.waist * 1e3, "^", ms=10, mfc="white", mec="black",
-                label=f"best waist at {w.power * 1e3:.4g} mW: {w.waist * 1e3:.3g} mm along, "
-                      f"{w.waist_across * 1e3:.3g} mm across → {w.outcome.transfer_fraction:.4f}"
-                      + (f" ({'; '.join(bound)})" if bound else ""))
+    if w is not None and (j is None or (w.waist, w.waist_across) != (j.waist, j.waist_across)
+                          or w.power != j.power):
+        mark(w.power, w.waist, w.waist_across,
+             dict(marker="^", ls="none", ms=10, mfc="white", mec="black"),
+             f"best waist at {w.power * 1e3:.4g} mW: {w.waist * 1e3:.3g} mm along "
+             f"→ {w.outcome.transfer_fraction:.4f}")
     ax.set_xscale("log")
     ax.set_yscale("log")
     _plain_log(ax.xaxis)
@@ -104,26 +125,23 @@ def plot_size(sizing, path):
     ax.set_xlim(P[0] / 1.15, P[-1] * 1.15)
     ax.set_ylim(W[0] / 1.1, W[-1] * 1.1)
     ax.set_xlabel(f"power of beam '{beam}' per pass (mW)")
-    across = ("waist across = waist along (not set in the setup)"
-              if "waist_across_mm" not in _beam_doc(setup, beam)
-              else f"waist across fixed at {b.waist_across * 1e3:.3g} mm")
     ax.set_ylabel("waist along the atomic beam, 1/e² radius (mm)")
     ax.set_title(f"{setup.scheme.name}: {_line_text(setup, beam)}\n"
-                 f"target '{setup.target}', F = {F:g}; map with {across}", fontsize=9)
-    _legend_below(ax)
-    notes = [f"Ceiling at unlimited power, this transit: {s.ceiling.transfer_fraction:.4f}. "
+                 f"target '{setup.target}', F = {F:g}; every point of the map and every "
+                 f"marker with waist across {across * 1e3:.4g} mm", fontsize=9)
+    if ax.get_legend_handles_labels()[0]:
+        _legend_below(ax)
+    notes = [f"Ceiling at unlimited power, the setup's waist and transit: "
+             f"{s.ceiling.transfer_fraction:.4f} (a limit, not a proposed power). "
              f"Branching limit at unlimited power and time: {sizing.limit.fraction:.4f}."]
-    if not s.reachable:
+    notes += ["Also: " + e for e in elsewhere]
+    if not s.reachable and j is None:
         notes.insert(0, f"F = {F:g} is NOT REACHABLE: {sizing.reason}")
     if sizing.unconverged:
         notes.append(f"WARNING: {sizing.unconverged} of {sizing.simulations} simulations missed "
                      "the numerical tolerance.")
     _footer(fig, notes, sizing.cautions)
     _save(fig, path)
-
-
-def _beam_doc(setup, beam):
-    return next(b for b in setup.document.get("beam", []) if b.get("name") == beam)
 
 
 def plot_compare(setup, routes, F, curves, path):
