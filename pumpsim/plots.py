@@ -48,13 +48,32 @@ def _save(fig, path):
     fig.savefig(path, dpi=DPI)
 
 
+def _tick_text(v):
+    """``0.2``, ``5``, ``2000``; from 10^4 up (and below 10^-3) a power of ten."""
+    if v <= 0:
+        return ""
+    if 1e-3 <= v < 1e4:
+        return f"{v:g}"
+    e = np.log10(v)
+    if abs(e - round(e)) < 1e-9:
+        return f"$10^{{{int(round(e))}}}$"
+    m = v / 10.0 ** np.floor(e)
+    return f"${m:.2g}\\times10^{{{int(np.floor(e))}}}$"
+
+
 def _plain_log(axis):
-    """Log axis with ticks written 0.2, 1, 5 rather than 2 x 10^-1."""
+    """Log axis with ticks written 0.2, 1, 5 rather than 2 x 10^-1; intermediate
+    (2, 5) ticks are labelled only while the axis spans at most two decades, so
+    that labels never run into each other."""
     from matplotlib.ticker import FuncFormatter, LogLocator
 
-    axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+    def minor(v, _):
+        lo, hi = sorted(axis.get_view_interval())
+        return _tick_text(v) if lo > 0 and hi / lo <= 150 else ""
+
+    axis.set_major_formatter(FuncFormatter(lambda v, _: _tick_text(v)))
     axis.set_minor_locator(LogLocator(subs=(2, 5)))
-    axis.set_minor_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+    axis.set_minor_formatter(FuncFormatter(minor))
 
 
 def _legend_below(ax, ncol=1):
@@ -144,7 +163,11 @@ def plot_size(sizing, path):
     _save(fig, path)
 
 
-def plot_compare(setup, routes, F, curves, path):
+LINE_STYLES = ("-", "--", "-.", ":")
+MARKERS = ("o", "s", "^", "D", "v", "P")
+
+
+def plot_compare(setup, routes, F, curves, path, rank_by="power"):
     """Transfer fraction against power for each route, the target line and each least power.
 
     Parameters
@@ -156,26 +179,35 @@ def plot_compare(setup, routes, F, curves, path):
     curves : dict
         Upper level -> ``(powers W, fractions)``, sorted by power.
     path : str or Path
+    rank_by : str
+        How the routes were ranked (a key of :data:`pumpsim.routes.RANK_BY`).
     """
     check_path(path)
-    from .routes import all_cautions
+    from .routes import RANK_BY, all_cautions
 
     fig = _figure((8.0, 7.0))
     ax = fig.add_subplot()
     beam = routes[0].beam
+    n = len(routes)
     for rank, r in enumerate(routes, 1):
         p, t = curves[r.upper]
         s = r.search
         tail = (f"{s.power * 1e3:.4g} mW for F" if s.reachable
                 else f"F out of reach (ceiling {s.ceiling.transfer_fraction:.3f})")
-        (ln,) = ax.plot(np.asarray(p) * 1e3, t, "-", lw=1.5,
+        # lower ranks drawn on top, thinner, each with its own dash and marker, so
+        # that curves and dots that coincide still show
+        style = dict(ls=LINE_STYLES[(rank - 1) % len(LINE_STYLES)],
+                     marker=MARKERS[(rank - 1) % len(MARKERS)], zorder=2 + rank)
+        (ln,) = ax.plot(np.asarray(p) * 1e3, t, lw=1.2 + 1.6 * (n - rank) / max(n - 1, 1),
+                        ms=3, **style,
                         label=f"{rank}. {r.lower} → {r.upper}, {r.wavelength * 1e9:.1f} nm, "
                               f"to target {r.branching_target:.2f}, to other "
                               f"{r.branching_other:.2f}: {tail}")
         if s.reachable and s.power > 0:
-            ax.plot(s.power * 1e3, s.outcome.transfer_fraction, "o", color=ln.get_color(),
-                    mec="black")
-    ax.axhline(F, color="black", ls="--", lw=1)
+            ax.plot(s.power * 1e3, s.outcome.transfer_fraction, ls="none",
+                    marker=style["marker"], ms=6 + 5 * (n - rank) / max(n - 1, 1),
+                    color=ln.get_color(), mec="black", zorder=20 + rank)
+    ax.axhline(F, color="0.35", ls="--", lw=1, zorder=1)
     ax.annotate(f"target F = {F:g}", (0.01, F), xycoords=("axes fraction", "data"),
                 va="bottom", fontsize=8)
     ax.set_xscale("log")
@@ -183,12 +215,12 @@ def plot_compare(setup, routes, F, curves, path):
     ax.set_ylabel(f"transfer fraction into '{setup.target}'")
     ax.set_title(f"{setup.scheme.name}: pump routes out of '{routes[0].lower}' for beam "
                  f"'{beam}', ranked best first\n"
-                 "dots: least power for F (re-simulated); right end of each curve: ceiling "
-                 "at unlimited power", fontsize=9)
+                 "large markers: least power for F (re-simulated)\nright end of each curve: "
+                 "ceiling at unlimited power (a limit, not a proposed power)", fontsize=9)
     _plain_log(ax.xaxis)
     _legend_below(ax)
     ax.grid(True, which="both", alpha=0.3)
-    _footer(fig, ["Ranking: routes reaching F first, by least power; then by ceiling."],
+    _footer(fig, [f"Ranking: routes reaching F first, by {RANK_BY[rank_by]}; then by ceiling."],
             all_cautions(routes))
     _save(fig, path)
 
