@@ -34,7 +34,10 @@ def test_size_json_contract_and_plot(tmp_path, capsys):
     assert d["best_waist_across_mm"] == pytest.approx(0.5)
     assert any("Laser safety" in c for c in d["cautions"])
     assert "CAUTION" in err
-    assert np.array(d["map"]["transfer_fraction"]).shape == (3, 3)
+    m = d["map"]  # 3 x 3, plus the least power over waists and its waist along
+    assert np.array(m["transfer_fraction"]).shape == (len(m["waist_mm"]), len(m["power_mW"]))
+    assert len(m["power_mW"]) in (3, 4) and d["joint_power_mW"] == pytest.approx(
+        min(m["power_mW"], key=lambda p: abs(p - d["joint_power_mW"])))
     assert (tmp_path / "size.png").read_bytes()[:4] == b"\x89PNG"
 
 
