@@ -14,7 +14,8 @@
 - **Peak pumping rate**: absorption rate of an atom in the lower level at the
   beam's centre, on resonance, unsaturated: ``sigma0 I_peak / (hbar omega)``
   (the model's rate at zero detuning), and the excitations it gives in one
-  pass, ``R sqrt(pi/2) tau``, the time integral of the Gaussian profile.
+  pass, ``R sqrt(pi/2) tau``, the time integral of the Gaussian profile. In
+  sublevel mode this is the line's degeneracy-averaged rate, not a sublevel's.
 - **Recoil heating**: each absorbed photon kicks the atom by the recoil
   velocity ``hbar k / m`` along the wave vector, each spontaneous photon by
   the same size in a random direction. The mean kick is the deflection; the

@@ -22,6 +22,11 @@ run through a :class:`~pumpsim.batch.Batcher`; the searches are generators
   across the atomic beam) within bounds, from the best point of a coarse
   grid; a step is halved when no neighbour is better. It ends with both
   neighbours on each axis no better, or at a bound, which it reports.
+- **Least power over waists**: :class:`JointOptimum`.
+- **Order of work** (:func:`size`): the answers that cost nothing or little
+  first, each reported as soon as known, then what the rest will cost, then
+  the waist searches and the map; a target out of reach at any waist within
+  the bounds runs no waist search.
 """
 
 import math
@@ -34,6 +39,7 @@ from .beam_shapes import shape_of
 from .errors import InputError
 from .limits import branching_limit
 from .lines import line
+from .progress import clock
 from .safety import GENERAL, cautions
 
 CEILING_SATURATION = 1e4  # peak saturation parameter standing in for "unlimited power"
@@ -573,8 +579,6 @@ def cost_text(seconds_each, workers, axes, map_points, joint, tolerance):
     if not parts:
         return None
     total = seconds_each * (serial + parallel / max(workers, 1))
-    from .progress import clock
-
     cheaper = []
     if map_points:
         cheaper.append("--map 0 (no map) or a smaller --map N")
@@ -665,6 +669,7 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
     elif not by_branching:
         report(f"F = {F:g} is out of reach at this waist even at unlimited power")
     joint_start = search if search.reachable and search.power > 0 else None
+    setup_start = setup  # the waists the joint search starts from
     if waists and not search.reachable:  # transit-limited here: try the longest transit
         big = with_waists(setup, beam, along[1], across[1])
         (wide,) = batcher.drive([least_power_search(big, beam, F)])
@@ -677,8 +682,6 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
                    f"mm) the ceiling is {wide.ceiling.transfer_fraction:.5f}: out of reach "
                    "within these bounds (no waist search)")
             waists = False
-    else:
-        setup_start = setup
     waists = waists and axes > 0
     cost = cost_text(seconds_each, workers, axes, map_points, waists and joint_start is not None,
                      setup.numerics.tolerance)
