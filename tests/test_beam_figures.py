@@ -138,3 +138,11 @@ def test_run_reports_figures_in_text_json_hdf5_and_plot(tmp_path, capsys):
     assert main(["run", str(setup.path)]) == 0
     text = capsys.readouterr().out
     assert "transit time" in text and "recoil heating" in text and "Doppler width" in text
+
+
+def test_run_plot_refuses_a_non_figure_name_before_running(tmp_path, capsys):
+    # exit 2 and one line naming the option (the project's rule for bad input)
+    setup = three_level(tmp_path)
+    assert main(["run", str(setup.path), "--plot", str(tmp_path / "z.txt")]) == 2
+    err = capsys.readouterr().err
+    assert "[--plot]" in err and "Traceback" not in err
