@@ -670,6 +670,7 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
         report(f"F = {F:g} is out of reach at this waist even at unlimited power")
     joint_start = search if search.reachable and search.power > 0 else None
     setup_start = setup  # the waists the joint search starts from
+    waists = waists and axes > 0
     if waists and not search.reachable:  # transit-limited here: try the longest transit
         big = with_waists(setup, beam, along[1], across[1])
         (wide,) = batcher.drive([least_power_search(big, beam, F)])
@@ -682,7 +683,6 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
                    f"mm) the ceiling is {wide.ceiling.transfer_fraction:.5f}: out of reach "
                    "within these bounds (no waist search)")
             waists = False
-    waists = waists and axes > 0
     cost = cost_text(seconds_each, workers, axes, map_points, waists and joint_start is not None,
                      setup.numerics.tolerance)
     if cost:
@@ -715,9 +715,9 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
             plo, phi = min(plo, b.power), max(phi, b.power)
         powers = np.geomspace(plo, phi, map_points)
         rows = np.geomspace(along[0], along[1], map_points)
-        if joint is not None and power_range is None:  # the optimum on the grid itself,
-            powers = np.union1d(powers, [joint.power])  # so that the F contour passes
-            rows = np.union1d(rows, [joint.waist])  # through its marker
+        if joint is not None and plo <= joint.power <= phi:  # the optimum on the grid
+            powers = np.union1d(powers, [joint.power])  # itself, so that the F contour
+            rows = np.union1d(rows, [joint.waist])  # passes through its marker
         grid = {"power": powers, "waist": rows,
                 "across": joint.waist_across if joint is not None else b.waist_across}
         (grid["fraction"],) = batcher.drive([map_search(setup, beam, grid["power"],
