@@ -556,6 +556,17 @@ def check_request(setup, beam, F):
         raise InputError(f"the target fraction must lie between 0 and 1, got {F!r}",
                          setup.path, "--target-fraction")
 
+def _with_point(values, x):
+    """Sorted ``values`` holding ``x``: it replaces a value within 1e-6 of it (a bound
+    the search reached, up to rounding) or is inserted."""
+    values = np.array(values, dtype=float)
+    near = np.abs(values / x - 1) <= 1e-6
+    if near.any():
+        values[np.argmax(near)] = x
+        return values
+    return np.sort(np.append(values, x))
+
+
 def plan_counts(axes, map_points, joint=True):
     """Typical simulations of each stage still to come: ``(serial, parallel)`` counts,
     the first run one batch at a time, the second spread over the workers."""
@@ -716,8 +727,8 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
         powers = np.geomspace(plo, phi, map_points)
         rows = np.geomspace(along[0], along[1], map_points)
         if joint is not None and plo <= joint.power <= phi:  # the optimum on the grid
-            powers = np.union1d(powers, [joint.power])  # itself, so that the F contour
-            rows = np.union1d(rows, [joint.waist])  # passes through its marker
+            powers = _with_point(powers, joint.power)  # itself, so that the F contour
+            rows = _with_point(rows, joint.waist)  # passes through its marker
         grid = {"power": powers, "waist": rows,
                 "across": joint.waist_across if joint is not None else b.waist_across}
         (grid["fraction"],) = batcher.drive([map_search(setup, beam, grid["power"],
