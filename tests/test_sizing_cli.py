@@ -1,4 +1,4 @@
-"""Command-line contract of size, compare and scan (files.md and issue 3, item 8):
+"""Command-line contract of size, compare and scan (files.md):
 one JSON object on stdout, exit codes 0 / 2, HDF5 layout, figures (common
 practice, no source)."""
 
