@@ -145,8 +145,19 @@ class Result:
                            "power_mW": b.power * 1e3}
         return out
 
+    def beam_figures(self):
+        """Per beam: transit time and width, Doppler width from the divergence, line
+        width, peak pumping rate, recoil velocity and the ensemble's recoil heating
+        (SI units; :mod:`pumpsim.beam_figures`). With several beams, ``"all beams"``
+        holds the combined heating."""
+        from .beam_figures import beam_figures
+
+        return beam_figures(self.setup, self.nodes, len(self.levels))
+
     def to_dict(self):
         """The JSON object of ``pumpsim run --json`` (file units)."""
+        from .beam_figures import in_file_units
+
         out = {
             "target": self.setup.target,
             "transfer_fraction": self.transfer_fraction,
@@ -154,6 +165,7 @@ class Result:
             "photons_per_atom": dict(self.photons_per_atom),
             "deflection_mrad": {k: v * 1e3 for k, v in self.deflection.items()},
             "beams": self.beam_summary(),
+            "beam_figures": in_file_units(self.beam_figures()),
             "numerics": self.numerics.to_dict(),
         }
         if self.sublevels is not None:  # sublevel mode (docs/sublevel.md)
