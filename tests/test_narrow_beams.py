@@ -19,6 +19,7 @@ import math
 import numpy as np
 import pytest
 import scipy.constants as C
+from scipy import sparse
 from scipy.integrate import solve_ivp
 from scipy.interpolate import CubicSpline
 
@@ -53,16 +54,15 @@ def axis_final(peak_intensities, waist, speed):
     sigma0 = (G_E / G_G) * LAM**2 / (2 * math.pi) * B_G  # A_eg / Gamma_e = B_G (model.md)
     n = peaks.size
 
+    i = 3 * np.arange(n)
+    rows = np.concatenate([i, i, i + 1, i + 2, i + 2])
+    cols = np.concatenate([i, i + 2, i + 2, i, i + 2])
+
     def jac(t, y):
         R = sigma0 * peaks * math.exp(-2 * (speed * t / waist) ** 2) / (C.hbar * OMEGA)
-        J = np.zeros((3 * n, 3 * n))
-        i = 3 * np.arange(n)
-        J[i, i] = -R
-        J[i, i + 2] = B_G * G + R * G_G / G_E
-        J[i + 1, i + 2] = B_M * G
-        J[i + 2, i] = R
-        J[i + 2, i + 2] = -G - R * G_G / G_E
-        return J
+        vals = np.concatenate([-R, B_G * G + R * G_G / G_E, np.full(n, B_M * G), R,
+                               -G - R * G_G / G_E])
+        return sparse.csc_matrix((vals, (rows, cols)), shape=(3 * n, 3 * n))
 
     t1 = 4 * waist / speed
     sol = solve_ivp(lambda t, y: jac(t, y) @ y, (-t1, t1), np.tile([1.0, 0, 0], n),
