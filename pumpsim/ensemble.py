@@ -31,8 +31,8 @@ from dataclasses import dataclass, replace
 import numpy as np
 from scipy import sparse
 
-from .quadrature import (NARROW_POINTS, OFFSET_SPAN, beam_edges, half_normal_rule,
-                         narrow_beam_edges, normal_rule, panel_rule, speed_panel)
+from .quadrature import (NARROW_POINTS, OFFSET_SPAN, angle_rule, angle_spacing, beam_edges,
+                         half_normal_rule, narrow_beam_edges, panel_rule, speed_panel)
 from .sources import speeds_of
 
 ODE_SHARE = 0.1  # of the tolerance, for the grid: refined first, on probe atoms only
@@ -43,14 +43,19 @@ MAX_PER_WAIST = 1024
 # finer grid is the change divided by 2**p - 1. The integrator is of order 4 on smooth
 # profiles but shows order 3 in strongly saturated wings; 2**3 - 1 is the safe divisor.
 GRID_ORDER_FACTOR = 7.0
-LADDERS = {"angle": (3, 6, 12, 24, 48, 96), "offset": (2, 4, 8, 16, 32, 64, 128, 256)}
+LADDERS = {"angle": (3, 6, 12, 24, 48, 96, 192, 384, 768),
+           "offset": (2, 4, 8, 16, 32, 64, 128, 256)}
 # The offset-rule check on probe atoms: a fine rule of this many equal 8-point panels; a
 # rung fails when it misses the fine rule by more than CHECK_FACTOR times its estimate
 # plus CHECK_SLACK times the tolerance. Rules that see the feature have errors within
 # about 1.1 times their estimate there (measured on the demo at 30 and 90 degrees); rules
 # that both miss a narrow beam or a far knee, orders of magnitude more.
 CHECK_PANELS, CHECK_FACTOR, CHECK_SLACK = 8, 2.0, 0.01
-NARROW_RUNGS = 6  # rungs of the offset ladder of panels around narrow beams (each halves them)
+NARROW_RUNGS = 6
+# The first angle rule may space its nodes this many widths (FWHM) of the narrowest
+# transverse Doppler feature apart: a Lorentzian still has a tenth of its height 1.5
+# widths off its centre, so that rule and the next one cannot both miss it.
+FEATURE_SPACINGS = 3.0  # rungs of the offset ladder of panels around narrow beams (each halves them)
 # Refinement starts from the smallest grid, rules and panels at every tolerance: each
 # step up is taken only while the summed error estimate asks for it.
 START_PER_WAIST, START_PANELS = 2, 3
@@ -268,15 +273,16 @@ class EnsembleIntegrator:
         so the first rule must already see the narrowest feature: two rules that
         both miss it agree on the wrong answer. Offsets: around a beam narrower
         across than the source, panels with edges at its waist across (each rung
-        halves every panel). Angles: the ladder starts at the first Gauss-Hermite
-        rule whose central node spacing (about pi / sqrt(n) sigma) is within the
-        narrowest transverse Doppler feature, the power-broadened line width over
-        ``k v sin(theta)`` at the fastest probe speed; at least two rungs stay so
-        that the last rule used has an estimate.
+        halves every panel). Angles: the ladder starts at the first rule whose
+        central node spacing (:func:`~pumpsim.quadrature.angle_spacing`) is within
+        :data:`FEATURE_SPACINGS` widths of the narrowest transverse Doppler feature,
+        the power-broadened line width
+        over ``k v sin(theta)`` at the fastest probe speed; at least two rungs stay
+        so that the last rule used has an estimate.
         """
         angle = LADDERS["angle"]
         feature = self.angle_feature()
-        start = next((i for i, n in enumerate(angle) if math.pi / math.sqrt(n) <= feature),
+        start = next((i for i, n in enumerate(angle) if angle_spacing(n) <= FEATURE_SPACINGS * feature),
                      len(angle) - 2)
         angle = angle[min(start, len(angle) - 2):]
         if self.offset_edges is None:
@@ -308,7 +314,7 @@ class EnsembleIntegrator:
         """Product rule over angle and offset with ``sizes["angle"]`` x ``sizes["offset"]``
         nodes: ``(angles, offsets, weights)``."""
         src = self.model.setup.source
-        a, wa = normal_rule(sizes["angle"], src.divergence_rms)
+        a, wa = angle_rule(sizes["angle"], src.divergence_rms)
         if self.offset_edges is None:
             y, wy = half_normal_rule(sizes["offset"], src.width_rms)
         else:

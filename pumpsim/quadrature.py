@@ -53,6 +53,39 @@ def speed_panel(speeds, lo, hi):
     return v, KRONROD_W * d, GAUSS_W * d
 
 
+ANGLE_HERMITE_MAX = 96  # angle rules of up to this many nodes are Gauss-Hermite
+
+
+def angle_rule(n, sigma):
+    """``n``-point rule for ``Normal(0, sigma)`` angles.
+
+    Up to :data:`ANGLE_HERMITE_MAX` nodes Gauss-Hermite (:func:`normal_rule`);
+    beyond, ``n / PANEL_POINTS`` equal Gauss-Legendre panels on
+    ``[-OFFSET_SPAN sigma, OFFSET_SPAN sigma]``, an even number so that 0 is an
+    edge. Why: a beam at right angles on resonance pumps a narrow Lorentzian
+    band of angles around 0 once the transverse Doppler width exceeds the
+    power-broadened line width; Gauss-Hermite rules converge on it slowly (at
+    20 mrad and 96 nodes the change was still 1.4e-3), panels converge fast.
+    """
+    if sigma == 0 or n <= ANGLE_HERMITE_MAX:
+        return normal_rule(n, sigma)
+    panels, rest = divmod(n, 2 * PANEL_POINTS)
+    if rest:
+        raise ValueError(f"an angle rule above {ANGLE_HERMITE_MAX} nodes needs a multiple of "
+                         f"{2 * PANEL_POINTS}, not {n}")
+    t, w = panel_rule(np.linspace(0.0, OFFSET_SPAN, panels + 1), 1)
+    return sigma * np.concatenate([-t[::-1], t]), 0.5 * np.concatenate([w[::-1], w])
+
+
+def angle_spacing(n):
+    """Largest node spacing near 0 of the ``n``-point :func:`angle_rule`, in sigmas:
+    about pi / sqrt(n) for Gauss-Hermite rules; for panels 1.5 times the mean
+    spacing (the largest gap of 8-point Gauss-Legendre nodes, 0.18 of a panel)."""
+    if n <= ANGLE_HERMITE_MAX:
+        return np.pi / np.sqrt(n)
+    return 1.5 * 2 * OFFSET_SPAN / n
+
+
 def normal_rule(n, sigma):
     """``n``-point Gauss-Hermite rule for ``Normal(0, sigma)``; one node at 0 if sigma is 0."""
     if sigma == 0 or n <= 1:
