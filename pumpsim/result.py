@@ -41,6 +41,10 @@ class NumericsReport:
         Where speed refinement stopped because the panels there could not be
         narrowed further (atoms near rest whose mean photons or deflection
         diverge); ``None`` when it did not. Left out of ``to_dict`` when ``None``.
+    limited_by : str or None
+        Why an unconverged run stopped: ``"max_nodes"``, ``"rules"`` (the angle or
+        offset ladder's largest rule), ``"speed"`` or ``"grid"``; ``None`` when
+        converged. Left out of ``to_dict`` when ``None``.
     """
 
     solver: str
@@ -57,6 +61,7 @@ class NumericsReport:
     conservation_error: float
     seconds: float
     unresolved_speed_m_s: float = None
+    limited_by: str = None
 
     def to_dict(self):
         return {k: v for k, v in self.__dict__.items() if v is not None}
@@ -70,8 +75,11 @@ class NumericsReport:
         e = self.error_estimate
         parts = (f"ode {e['ode']:.1e}, angle/offset {e['angle_offset']:.1e}, "
                  f"speed {e['speed']:.1e}")
-        hint = ("the grid along z reached its finest spacing" if e["ode"] >= e["speed"]
+        hint = ("the grid along z reached its finest spacing" if self.limited_by == "grid"
+                or self.limited_by is None and e["ode"] >= e["speed"]
                 and e["ode"] >= e["angle_offset"] else
+                "the angle or offset rules reached their largest size; loosen "
+                "numerics.tolerance" if self.limited_by == "rules" else
                 f"raise numerics.max_nodes (now {self.nodes_evaluated} nodes evaluated) or "
                 "loosen numerics.tolerance")
         if self.unresolved_speed_m_s is not None:

@@ -58,7 +58,7 @@ def simulate(setup, basis=None, progress=None) -> Result:
         error_estimate=ens.errors,
         converged=bool(ens.converged and conservation <= CONSERVATION_LIMIT),
         conservation_error=conservation, seconds=ens.seconds,
-        unresolved_speed_m_s=ens.rules["unresolved_speed"])
+        unresolved_speed_m_s=ens.rules["unresolved_speed"], limited_by=ens.rules["limited_by"])
     final = {lid: float(p) for lid, p in zip(levels, pops)}
     sublevels = None
     if isinstance(model.basis, SublevelBasis):
