@@ -1,0 +1,115 @@
+"""Whether the rate equations can be trusted: a check on every run.
+
+The rate equations drop every coherence. After each rate-equation run the
+density-matrix model integrates a few representative atoms on the run's own
+grid (slow, typical and fast; the centre and the edges of the angle and
+offset spreads) and the largest difference in any state population between
+the two models is reported with what it stems from:
+
+- **coherent trapping**: coherences between states of one level (dark
+  superpositions, Raman or Zeeman coherences) make most of it: the
+  difference shrinks when the model is rerun without them;
+- **Rabi oscillation**: the optical coherences make it and the peak Rabi
+  frequency exceeds their damping rate ``gamma/2``;
+- **transit time**: the optical coherences make it at weaker fields: the atom
+  crosses the beam before they settle (scales as ``1/v``).
+
+Above the run's tolerance the result carries a warning pointing to
+``numerics.equations = "density_matrix"``.
+"""
+
+import time
+
+import numpy as np
+
+from ..basis import SublevelBasis
+from ..ensemble import EnsembleIntegrator
+from ..errors import InputError
+from .model import CoherentModel
+from .propagator import CoherentPropagator
+
+EDGE = 2.0  # edge atoms sit at 2 rms of the angle and offset spreads
+
+
+def representative_atoms(model, propagator):
+    """``(v, a, y0)`` arrays of the atoms checked."""
+    src = model.setup.source
+    speeds = EnsembleIntegrator(model, propagator, 1.0, 1).probe_speeds()
+    typical = speeds[len(speeds) // 2]
+    atoms = [(v, 0.0, 0.0) for v in speeds]
+    if src.divergence_rms > 0:
+        atoms += [(typical, EDGE * src.divergence_rms, 0.0),
+                  (typical, -EDGE * src.divergence_rms, 0.0)]
+    if src.width_rms > 0:
+        atoms.append((typical, 0.0, EDGE * src.width_rms))
+    return tuple(np.array(x) for x in zip(*atoms))
+
+
+def coherence_check(setup, model, propagator, z):
+    """Compare the rate equations with the density-matrix model on representative atoms.
+
+    Parameters
+    ----------
+    setup : Setup
+    model : RateModel
+        The run's model (its basis is reused).
+    propagator : Propagator
+        The run's integrator.
+    z : ndarray
+        The run's grid.
+
+    Returns
+    -------
+    dict or None
+        Flat, for ``numerics.coherence``: ``largest_difference``, ``state``,
+        the atom (``speed_m_s``, ``angle_mrad``, ``offset_mm``), ``cause``,
+        ``within_tolerance``, ``atoms``, ``seconds`` and, above the tolerance,
+        ``warning``; ``{"skipped": reason}`` when the model does not apply;
+        ``None`` when switched off or when the run is the density-matrix model.
+    """
+    num = setup.numerics
+    if num.coherence_check == "off" or num.equations == "density_matrix" or not setup.beams:
+        return None
+    t0 = time.perf_counter()
+    try:
+        coherent = CoherentModel(setup, model.basis)
+    except InputError as exc:
+        return {"skipped": exc.reason}
+    V, A, Y = representative_atoms(model, propagator)
+    S = model.n_states
+    rates = propagator.propagate(model.problem(V, A, Y), z).final[:, :S]
+    full = CoherentPropagator().propagate(coherent.problem(V, A, Y), z).final[:, :S]
+    diff = np.abs(full - rates)
+    atom, state = np.unravel_index(np.argmax(diff), diff.shape)
+    largest = float(diff[atom, state])
+    out = {"largest_difference": largest, "state": model.basis.labels[state],
+           "speed_m_s": float(V[atom]), "angle_mrad": float(A[atom] * 1e3),
+           "offset_mm": float(Y[atom] * 1e3), "within_tolerance": largest <= num.tolerance,
+           "atoms": int(V.size)}
+    if largest > num.tolerance:
+        out["cause"] = _cause(setup, model, coherent, full, rates, (V, A, Y), z)
+        out["warning"] = (
+            f"the rate equations may be off: a density-matrix check on {V.size} atoms differs "
+            f"by {largest:.2g} in '{out['state']}' (atom at {V[atom]:.4g} m/s, "
+            f"{A[atom] * 1e3:.3g} mrad, {Y[atom] * 1e3:.3g} mm), above the tolerance "
+            f"{num.tolerance:g}; cause: {out['cause']}. Run with numerics.equations = "
+            "\"density_matrix\" for the coherent result (docs/coherent.md)")
+    else:
+        out["cause"] = "none above the tolerance"
+    out["seconds"] = time.perf_counter() - t0
+    return out
+
+
+def _cause(setup, model, coherent, full, rates, atoms, z):
+    """The label of what makes the difference (see module docstring)."""
+    if isinstance(model.basis, SublevelBasis) and coherent.liouvillian.pairs:
+        optical = CoherentModel(setup, model.basis, sublevel_coherences=False)
+        if len(optical.liouvillian.pairs) < len(coherent.liouvillian.pairs):
+            S = model.n_states
+            part = CoherentPropagator().propagate(optical.problem(*atoms), z).final[:, :S]
+            if np.max(np.abs(full - part)) >= np.max(np.abs(part - rates)):
+                return "coherent trapping"
+    damping = np.array([0.5 * ln.gamma(b.linewidth)
+                        for b, ln in zip(setup.beams, model.lines)])
+    rabi = coherent.peak_rabi(atoms[2])
+    return "Rabi oscillation" if np.max(rabi / damping[:, None]) > 1.0 else "transit time"
