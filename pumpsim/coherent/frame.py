@@ -14,7 +14,13 @@ drives, or whose beam would contradict the frame already built (a loop of
 lasers whose frequencies do not close), cannot be held by a static
 Hamiltonian: such couplings, always far from the resonance of the pair
 (another laser's hyperfine component), are kept as rate-equation terms
-instead (see :mod:`.model`). States that no beam connects each form their
+instead (see :mod:`.model`). So are couplings detuned by more than
+``FAR_OFF`` times the sum of their optical damping ``gamma/2``, peak Rabi
+frequency and largest Doppler shift: their coherence follows the field
+adiabatically, which is the rate equations' own assumption, and leaving
+them out of the Liouvillian keeps it small and slowly rotating (for Rb-87
+D1, F' = 1 under light tuned to F' = 2). Their light shift, of relative
+size ``1/FAR_OFF`` of the Rabi frequency, is neglected. States that no beam connects each form their
 own frame component; coherences between components are dropped (they
 rotate at optical or hyperfine frequencies).
 
@@ -34,10 +40,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .. import constants as K
 from ..angular import twice, wigner_3j, wigner_6j
 from ..basis import SublevelBasis
+from ..beam_shapes import shape_of
 from ..errors import InputError
 from ..hyperfine import reference_offset
+from ..lines import line
+from ..sources import speeds_of
+
+FAR_OFF = 30.0
 
 
 @dataclass(frozen=True)
@@ -84,6 +96,22 @@ def polarization_sign(polarization, q) -> float:
     return -1.0 if polarization.kind == "linear" and q == 1 else 1.0
 
 
+def field_scale(scheme, beam) -> float:
+    """Rabi frequency of a unit-strength pair at the beam's peak, all passes together,
+    rad/s: ``Omega^2 = passes I sigma0 gamma / (hbar omega)`` (see :mod:`.model`)."""
+    ln = line(scheme, beam.lower, beam.upper)
+    peak = shape_of(beam).peak_intensity
+    return math.sqrt(beam.passes * peak * ln.sigma0() * ln.gamma() / (K.hbar * ln.omega))
+
+
+def largest_doppler(setup, beam) -> float:
+    """Largest Doppler shift of a beam over the source's speeds and 4 rms angles, rad/s."""
+    lo, hi = speeds_of(setup.source, setup.scheme.mass).support()
+    a = 4.0 * setup.source.divergence_rms
+    k = line(setup.scheme, beam.lower, beam.upper).k
+    return k * hi * (abs(math.cos(beam.angle)) + a * math.sin(beam.angle))
+
+
 def laser_offset(scheme, beam) -> float:
     """Laser frequency from its line's centroid, Hz."""
     return beam.detuning + reference_offset(scheme, beam)
@@ -114,19 +142,27 @@ class Frame:
         S, B = basis.size, len(setup.beams)
         scheme = setup.scheme
         sublevels = isinstance(basis, SublevelBasis)
-        candidates = []
+        candidates, self.incoherent = [], []
         for b, beam in enumerate(setup.beams):
             if sublevels and beam.polarization.kind == "unpolarized" and basis.couplings(beam):
                 raise InputError(
                     "the density-matrix model needs a polarization (isotropic light has no "
                     "single field to put in a Hamiltonian): pi, sigma+, sigma- or "
                     "{ linear_deg = ... }", setup.path, f"beam '{beam.name}'", "polarization")
+            ln = line(scheme, beam.lower, beam.upper)
+            scale = field_scale(scheme, beam)
+            slack = largest_doppler(setup, beam)
             for c in basis.couplings(beam):
-                candidates.append((abs(beam.detuning - c.shift), b, c))
+                detuning = 2 * math.pi * abs(beam.detuning - c.shift)
+                width = 0.5 * ln.gamma(beam.linewidth) + scale * math.sqrt(c.strength) + slack
+                if detuning > FAR_OFF * width:
+                    self.incoherent.append((b, c))
+                else:
+                    candidates.append((detuning, b, c))
         candidates.sort(key=lambda x: x[0])
         comp = -np.ones(S, dtype=int)
         pot = np.zeros((S, B), dtype=int)
-        driven, self.edges, self.incoherent = set(), [], []
+        driven, self.edges = set(), []
         fresh = 0
         for _, b, c in candidates:
             lo, up = c.lower, c.upper
@@ -160,7 +196,13 @@ class Frame:
         self.component, self.potential = comp, pot
         shift = basis.shift if sublevels else np.zeros(S)
         offsets = np.array([laser_offset(scheme, b) for b in setup.beams]).reshape(B)
-        self.energy = 2 * math.pi * (shift - pot @ offsets)
+        energy = 2 * math.pi * (shift - pot @ offsets)
+        # each component's frame is fixed only up to a common frequency (no coherence
+        # links components): centre it, so that nothing in the frame rotates needlessly
+        for k in range(fresh):
+            members = comp == k
+            energy[members] -= energy[members].mean()
+        self.energy = energy
 
     def same_frame(self, i, j, k, l) -> bool:
         """Whether ``rho_ij`` and ``rho_kl`` rotate alike in the frame (so that decay

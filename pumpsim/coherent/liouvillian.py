@@ -39,6 +39,8 @@ class Liouvillian:
     basis : Basis
     terms : list of (beam index, direction)
         The rate model's terms (passes); one photon counter each.
+    decay : ndarray (S, S)
+        The basis's decay generator.
     sublevel_coherences : bool
         Keep coherences between states of one level (Zeeman, hyperfine and
         Raman coherences). ``False`` drops them, leaving optical coherences
@@ -59,13 +61,13 @@ class Liouvillian:
         of each edge), including its photon counters.
     """
 
-    def __init__(self, setup, basis, terms, sublevel_coherences=True):
+    def __init__(self, setup, basis, terms, decay, sublevel_coherences=True):
         self.frame = fr = Frame(setup, basis)
         S, B, T = basis.size, len(setup.beams), len(terms)
         self.S, self.T = S, T
         self.level_of = basis.level_of
         self.sublevel_coherences = sublevel_coherences
-        G = basis.decay_generator()
+        G = decay
         self.out_rate = -np.diag(G)
         self.jumps = _jump_members(basis, G)
         self.noise = [(D, w) for D, w in noise_sources(setup.beams)]

@@ -35,9 +35,9 @@ import math
 
 import numpy as np
 
-from .. import constants as K
 from ..model import RateModel
 from ..solvers.base import LinearProblem
+from .frame import field_scale
 from .liouvillian import Liouvillian
 
 
@@ -55,15 +55,14 @@ class CoherentModel(RateModel):
     def __init__(self, setup, basis=None, sublevel_coherences=True):
         super().__init__(setup, basis)
         S, T = self.n_states, len(self.terms)
-        self.liouvillian = L = Liouvillian(setup, self.basis, self.terms, sublevel_coherences)
+        self.liouvillian = L = Liouvillian(setup, self.basis, self.terms, self.decay,
+                                          sublevel_coherences)
         self.size = L.size
         initial = np.zeros(self.size)
         initial[: S + T] = self.initial
         self.initial = initial
         beams = setup.beams
-        self.field_scale = np.array([math.sqrt(
-            b.passes * s.peak_intensity * ln.sigma0() * ln.gamma() / (K.hbar * ln.omega))
-            for b, s, ln in zip(beams, self.shapes, self.lines)])
+        self.field_scale = np.array([field_scale(setup.scheme, b) for b in beams])
         # mean wave-vector direction of the passes (+k, -k, +k, ...)
         self.direction = np.array([(b.passes % 2) / b.passes for b in beams])
         kept = {(e.beam, e.coupling.lower, e.coupling.upper): min(1.0, e.coupling.ratio)
@@ -123,4 +122,14 @@ class CoherentModel(RateModel):
                     for (row, col), sign in (((up, lo), 1), ((lo, lo), -1), ((lo, up), 1),
                                              ((up, up), -1), ((acc, lo), 1), ((acc, up), -1)):
                         rates[t, :, row, col] -= sign * sym
+        # a state emptied incoherently at rate R loses its coherences at R/2, as under a
+        # Lindblad jump sqrt(R)|to><from| (which keeps the density matrix positive)
+        L = self.liouvillian
+        if L.pairs:
+            i, j = np.array(L.pairs).T
+            k = np.array([L.index[p] for p in L.pairs])
+            out = -np.diagonal(rates[:, :, :S, :S], axis1=2, axis2=3)
+            damp = 0.5 * (out[:, :, i] + out[:, :, j])
+            rates[:, :, k, k] -= damp
+            rates[:, :, k + 1, k + 1] -= damp
         return rates
