@@ -32,7 +32,7 @@ from test_coherent_qutip import qutip_final  # noqa: E402
 from pumpsim.coherent import CoherentModel, CoherentPropagator  # noqa: E402
 
 SPEED, WAIST = 1000.0, 0.15  # m/s, mm
-GRIDS = (8, 16, 32)  # steps per waist
+GRIDS = (4, 8, 16)  # steps per waist
 
 
 def main(n_atoms=2, batch=16):
