@@ -748,7 +748,7 @@ DOCUMENTED = [  # (kind of bad input, files, extra arguments, exact stderr line)
     ("unknown key, wrong unit", _edit("setup", lambda d: d["beam"][0].update(
         power_W=d["beam"][0].pop("power_mW"))), [],
      "setup.toml [beam 'pump'] key 'power_W': unknown key (allowed: angle_deg, detuning_MHz, "
-     "linewidth_MHz, name, passes, polarization, position_mm, power_mW, reference_F, "
+     "linewidth_MHz, name, passes, phase_group, polarization, position_mm, power_mW, reference_F, "
      "transition, waist_across_mm, waist_mm)"),
     ("missing required key", _edit("setup", _drop("beam", 0, "waist_mm")), [],
      "setup.toml [beam 'pump'] key 'waist_mm': missing required key"),
