@@ -45,6 +45,9 @@ class NumericsReport:
         Why an unconverged run stopped: ``"max_nodes"``, ``"rules"`` (the angle or
         offset ladder's largest rule), ``"speed"`` or ``"grid"``; ``None`` when
         converged. Left out of ``to_dict`` when ``None``.
+    coherence : dict or None
+        The density-matrix check of the rate equations (docs/coherent.md);
+        ``None`` when switched off. Left out of ``to_dict`` when ``None``.
     """
 
     solver: str
@@ -62,6 +65,7 @@ class NumericsReport:
     seconds: float
     unresolved_speed_m_s: float = None
     limited_by: str = None
+    coherence: dict = None
 
     def to_dict(self):
         return {k: v for k, v in self.__dict__.items() if v is not None}
@@ -69,9 +73,9 @@ class NumericsReport:
     def warnings(self):
         """Plain-words reasons the numbers are not converged, and by how much
         (an empty list when they are)."""
+        out = [self.coherence["warning"]] if self.coherence and "warning" in self.coherence else []
         if self.converged:
-            return []
-        out = []
+            return out
         e = self.error_estimate
         parts = (f"ode {e['ode']:.1e}, angle/offset {e['angle_offset']:.1e}, "
                  f"speed {e['speed']:.1e}")
