@@ -167,6 +167,9 @@ BEAM_FIELDS = (
        "polarization (to the field axis)", kind=Polarization, choices=POLARIZATIONS),
     _f("beam", "reference_F", "reference_F", "", 1, None,
        "detuning from hyperfine line [F, F']", kind=Component),
+    # density-matrix model (docs/coherent.md); the rate equations ignore it
+    _f("beam", "phase_group", "phase_group", "", 1, None,
+       "phase-related group (sidebands of one laser)", kind=str),
 )
 
 MODE_FIELDS = (
@@ -187,6 +190,13 @@ NUMERICS_FIELDS = (
        choices=("exponential", "radau", "rosenbrock")),
     _f("numerics", "max_nodes", "max_nodes", "", 1, 200000,
        "largest ensemble the quadrature may use", kind=int, low=1, high=100_000_000),
+    # density-matrix model and the check of every run against it (docs/coherent.md)
+    _f("numerics", "equations", "equations", "", 1, "rates",
+       "model: rate equations or density matrix", kind=str,
+       choices=("rates", "density_matrix")),
+    _f("numerics", "coherence_check", "coherence_check", "", 1, "on",
+       "compare with the density-matrix model on a few atoms", kind=str,
+       choices=("on", "off")),
 )
 
 FIELDS = SOURCE_FIELDS + BEAM_FIELDS + NUMERICS_FIELDS + MODE_FIELDS

@@ -71,6 +71,9 @@ class Beam:
     reference_F : Component or None
         Hyperfine component ``F -> F'`` that ``detuning`` is measured from
         (``None``: from the line's centroid, the contract's default).
+    phase_group : str or None
+        Beams sharing a group are phase-related (sidebands of one laser): the
+        density-matrix model keeps their Raman coherences (docs/coherent.md).
     """
 
     name: str
@@ -86,6 +89,7 @@ class Beam:
     passes: int = 1
     polarization: Polarization = Polarization()
     reference_F: object = None
+    phase_group: str | None = None
 
 
 @dataclass(frozen=True)
@@ -103,6 +107,11 @@ class Numerics:
         sublevel bases) or ``"radau"`` (per-node reference).
     max_nodes : int
         Largest ensemble the adaptive quadrature may build.
+    equations : str
+        ``"rates"`` (default) or ``"density_matrix"`` (docs/coherent.md).
+    coherence_check : str
+        ``"on"``: every rate-equation run is compared with the density-matrix
+        model on a few atoms; ``"off"`` skips that.
     """
 
     start: float | None = None
@@ -110,6 +119,8 @@ class Numerics:
     tolerance: float = 1e-4
     solver: str = "exponential"
     max_nodes: int = 200000
+    equations: str = "rates"
+    coherence_check: str = "on"
 
 
 @dataclass(frozen=True)
