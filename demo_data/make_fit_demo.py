@@ -16,8 +16,8 @@ from pumpsim.scheme_values import with_scheme_value
 
 HERE = Path(__file__).parent
 TRUE_BRANCHING, TRUE_TEMPERATURE_K = 0.45, 1050.0
-POWERS_MW = np.geomspace(0.001, 1.0, 12)
-NOISE = 0.02
+POWERS_MW = np.geomspace(0.001, 1.0, 16)
+NOISE = 0.01
 SEED = 20261205
 
 

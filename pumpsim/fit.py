@@ -30,6 +30,10 @@ from scipy.optimize import least_squares
 REL_STEP = 1e-6  # forward-difference step, relative to each parameter's typical size
 NULL_EIGEN = 1e-10  # eigenvalues of the scaled J^T J below this share of the largest: undetermined
 NULL_LOADING = 0.1  # a parameter with this much weight in such a direction is flagged
+# A parameter whose change by its whole typical size moves the predictions by less than
+# this many uncertainties is one the data do not depend on; it is left out of the
+# covariance so that its numerical noise cannot spoil the others' errors.
+INSENSITIVE = 1e-3
 STRONG_CORRELATION = 0.999
 
 
@@ -140,8 +144,9 @@ def least_squares_fit(model_batch, params, y, sigma=None, max_evaluations=200):
     r = fun(p)
     chi2 = float(r @ r)
     dof = len(y) - len(p)
-    cov, stderr, flags = _covariance(J, typical, params, p, lo, hi)
     scaled = sigma is None
+    scatter = np.sqrt(chi2 / dof) if scaled and dof > 0 else 1.0  # the data's own unit
+    cov, stderr, flags = _covariance(J, typical, params, scatter)
     if scaled and dof > 0:
         cov = cov * chi2 / dof
         stderr = stderr * np.sqrt(chi2 / dof)
@@ -161,12 +166,15 @@ def least_squares_fit(model_batch, params, y, sigma=None, max_evaluations=200):
                      str(res.message))
 
 
-def _covariance(J, typical, params, p, lo, hi):
+def _covariance(J, typical, params, scatter):
     """Covariance from the weighted Jacobian, with directions the data do not constrain
     taken out (their parameters flagged, standard error infinite)."""
     n = len(params)
     flags = {q.name: [] for q in params}
     Js = J * typical  # each parameter in units of its typical size
+    col = np.linalg.norm(Js, axis=0)
+    deaf = col < INSENSITIVE * scatter
+    Js = np.where(deaf, 0.0, Js)
     A = Js.T @ Js
     w, V = np.linalg.eigh(A)
     top = max(w.max(initial=0.0), 0.0)
@@ -175,9 +183,8 @@ def _covariance(J, typical, params, p, lo, hi):
     lost = np.zeros(n, dtype=bool)
     for k in np.flatnonzero(null):
         lost |= np.abs(V[:, k]) > NULL_LOADING
-    col = np.linalg.norm(Js, axis=0)
     for i, q in enumerate(params):
-        if col[i] <= NULL_EIGEN * np.sqrt(top) or top == 0:
+        if deaf[i] or top == 0:
             flags[q.name].append("the data do not depend on it")
         elif lost[i]:
             flags[q.name].append("the data cannot tell it apart from a change of the other "
@@ -186,7 +193,8 @@ def _covariance(J, typical, params, p, lo, hi):
     inv = (V[:, keep] / w[keep]) @ V[:, keep].T  # pseudo-inverse on the constrained directions
     cov = inv * np.outer(typical, typical)  # back from units of each typical size
     d = np.sqrt(np.maximum(np.diag(cov), 0.0))
-    stderr = np.where(lost | (col <= NULL_EIGEN * np.sqrt(top)), np.inf, d)
+    lost |= deaf
+    stderr = np.where(lost, np.inf, d)
     cov[lost, :] = np.nan
     cov[:, lost] = np.nan
     for i in np.flatnonzero(lost):

@@ -226,3 +226,26 @@ def measurement_summary(measured) -> str:
         if key in s:
             lines.append(f"  {key.replace('_', ' ')}: {s[key]:.4g}")
     return "\n".join(lines)
+
+
+def spectrum(setup, probe, detunings_MHz, executor):
+    """Probe signal against the probe's detuning (MHz), pumps on and off: every
+    simulation through ``executor``. Returns the ``pumpsim probe --json`` object."""
+    from .executors import run_ordered
+    from .outcome import evaluate
+
+    beam = setup.beam(probe)
+    on = [setup.with_value(f"beam.{probe}.detuning_MHz", float(d)) for d in detunings_MHz]
+    setups = on + [pumps_off(s) for s in on]
+    photons = [o.photons_per_atom[probe] for o in run_ordered(executor, evaluate, setups)]
+    share = detected_share(beam)
+    n = len(on)
+    signal = np.array(photons[:n]) * share
+    dark = np.array(photons[n:]) * share
+    out = {"probe": probe, "detuning_MHz": [float(d) for d in detunings_MHz],
+           "detected_per_atom": signal.tolist(), "detected_per_atom_pumps_off": dark.tolist(),
+           "gain": np.divide(signal, dark, out=np.full(n, np.inf), where=dark > 0).tolist()}
+    if setup.source.flux is not None:
+        out["counts_per_s"] = (signal * setup.source.flux).tolist()
+        out["counts_per_s_pumps_off"] = (dark * setup.source.flux).tolist()
+    return out

@@ -6,7 +6,8 @@ import numpy as np
 
 from ..errors import InputError
 from ..fit import least_squares_fit
-from ..fit_output import fit_report, plot_fit, write_fit
+from ..fit_output import fit_report, write_fit
+from ..measure_plots import plot_fit
 from ..fitmodel import FitModel, parse_free, read_data
 from ..outpaths import OutputLock, check_output
 from ..probe import probes
@@ -14,6 +15,8 @@ from ..safety import cautions
 from .common import add_setup_arguments, command_line, print_json, setup_from_args, status
 from .parallel import add_batch_arguments, check_plot_path, executor_from_args
 
+FROZEN_LIMIT = 0.3  # frozen rules may differ from the adaptive engine by this much of the
+# uncertainty at the solution before the fit is told to be redone from there
 CURVE_POINTS = 25  # the fitted curve and its band are drawn through this many conditions
 
 
@@ -69,6 +72,12 @@ def handle(args):
             checks = _checks(model, fit, start)
             curve = _curve(model, fit) if data.x.shape[1] == 1 else None
         report = fit_report(setup, data, fit, checks, curve)
+        if checks["solution"] > FROZEN_LIMIT:
+            report["warnings"].append(
+                f"the frozen grid and rules differ from the adaptive engine at the solution "
+                f"by {checks['solution']:.2g} of the {checks['unit']}: the values moved far "
+                "from the start; fit again starting from them (--set for setup values, the "
+                "scheme file for scheme values)")
         if args.out:
             write_fit(args.out, setup, data, report, command)
     if args.plot:
