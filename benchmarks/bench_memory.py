@@ -39,7 +39,7 @@ from pumpsim import constants as K
 from pumpsim.ensemble import CHUNK, EnsembleIntegrator
 from pumpsim.model import RateModel
 from pumpsim.solvers import ExponentialPropagator
-from pumpsim.tomlwrite import dumps
+from pumpsim.tomltext import dumps
 
 BLOCK = CHUNK  # nodes drawn at a time in the streamed phase: one chunk
 TEMPERATURE_K, MASS_U = 1000.0, 40.0

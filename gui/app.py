@@ -19,6 +19,15 @@ def application():
     return app
 
 
+def fit_screen(window, app):
+    """No larger than the screen's free area (a 1280 x 720 laptop screen works: the
+    setup panel and the tabs scroll)."""
+    screen = app.primaryScreen()
+    if screen is not None:
+        free = screen.availableGeometry()
+        window.resize(min(window.width(), free.width()), min(window.height(), free.height()))
+
+
 def run(setup, screenshot=None, theme="light"):
     """Open the window on ``setup`` and run until it closes.
 
@@ -39,9 +48,11 @@ def run(setup, screenshot=None, theme="light"):
     app = application()
     window = MainWindow(setup, theme)
     window.resize(*WINDOW_SIZE)
-    window.show()
     if screenshot is None:
+        fit_screen(window, app)
+        window.show()
         return app.exec()
+    window.show()
     outcome = {"code": 1}
 
     def shoot():

@@ -14,6 +14,7 @@ from pumpsim.schema import REQUIRED, Field, fields_of
 from .edits import field_key, field_state, shown_fields
 from .field_row import FieldRow
 
+PANEL_WIDTH = 350  # narrow enough for a 1280 px screen beside the results; labels wrap
 POWER_KEY = "power_mW"  # the beam field under which that beam's laser cautions sit
 
 
@@ -43,14 +44,16 @@ class SetupPanel(QScrollArea):
         super().__init__(parent)
         self.setWidgetResizable(True)
         self.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
-        self.setMinimumWidth(440)
+        self.setMinimumWidth(PANEL_WIDTH)
         self.rows, self.caution_labels, self.structure = {}, {}, None
-        self.body = None
+        self.body = self.ran = None
 
-    def load(self, setup, except_key=None):
+    def load(self, setup):
         """Show ``setup``; rebuild only if its beams, scheme or source kind changed.
 
-        ``except_key`` is the control the change came from: it already shows it.
+        Every row learns the value in force, even the one whose control made the
+        change (it leaves that control as the user has it): a row comparing a new
+        entry with a value it remembered wrongly would drop the entry.
         """
         structure = (setup.scheme.path, setup.scheme.ids, setup.source.kind, setup.mode,
                      tuple((b.name, b.lower, b.upper) for b in setup.beams))
@@ -62,12 +65,18 @@ class SetupPanel(QScrollArea):
                 stale = not row.error.isHidden()  # it may still show the refused text
                 row.clear_error()
                 state = self._state(setup, field, beam)
-                if key != except_key and (stale or state != (row.value, row.is_set)):
+                if stale or state != (row.value, row.is_set):
                     row.set_value(*state)
         for name, label in self.caution_labels.items():
             text = beam_cautions(setup, name)
             label.setText("⚠ " + "\n⚠ ".join(text) if text else "")
             label.setVisible(bool(text))
+
+    def show_ran(self, numerics):
+        """What the engine actually ran for the result on show (sublevel mode may pick
+        another integrator than the solver set here)."""
+        self.ran.setText(f"Last engine run: {numerics.solver} integrator, {numerics.nodes} "
+                         f"atom classes, {numerics.steps} steps, {numerics.seconds:.2g} s")
 
     def show_error(self, key, message):
         if key in self.rows:
@@ -113,6 +122,10 @@ class SetupPanel(QScrollArea):
         group = self._group(column, "Numerics")
         for f in fields_of("numerics"):
             self._add(group, setup, f, None)
+        self.ran = QLabel("The engine has not run yet.")
+        self.ran.setObjectName("hint")
+        self.ran.setWordWrap(True)
+        group.addWidget(self.ran)
         column.addStretch(1)
         old = self.takeWidget()
         if old is not None:

@@ -78,7 +78,8 @@ def field_key(field, beam=None):
     return f"{field.table}.{field.key}" if field.table else field.key
 
 
-SUBLEVEL_ONLY = {("beam", "polarization"), ("field", "B_gauss")}  # level mode ignores them
+SUBLEVEL_ONLY = {("beam", "polarization"), ("beam", "reference_F"),
+                 ("field", "B_gauss")}  # level mode ignores them
 
 
 def shown_fields(setup, fields):

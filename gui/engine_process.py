@@ -14,6 +14,7 @@ No Qt here: the child imports only this module and the engine.
 """
 
 import multiprocessing
+import os
 import threading
 import time
 
@@ -34,9 +35,12 @@ class _Stopped(Exception):
     """Child side: the parent flagged the running job as stale."""
 
 
-def _serve(conn, stop):
+def _serve(conn, stop, nice=0):
     """Child: simulate each ``(job, setup, tolerance)`` received; answer ``(ok, result or
-    message)``, ``ok`` None for a job stopped because ``stop.value`` named it."""
+    message)``, ``ok`` None for a job stopped because ``stop.value`` named it. A ``nice``
+    above 0 lowers the child's scheduling priority (where the system has one)."""
+    if nice and hasattr(os, "nice"):
+        os.nice(nice)
     while True:
         try:
             job, setup, tolerance = conn.recv()
@@ -60,10 +64,10 @@ def _serve(conn, stop):
 class _Child:
     """A started child process and our end of its pipe."""
 
-    def __init__(self, ctx):
+    def __init__(self, ctx, nice=0):
         self.conn, theirs = ctx.Pipe()
         self.stop = ctx.Value("q", 0, lock=False)  # the job to stop; one writer, one reader
-        self.proc = ctx.Process(target=_serve, args=(theirs, self.stop), daemon=True,
+        self.proc = ctx.Process(target=_serve, args=(theirs, self.stop, nice), daemon=True,
                                 name="pumpsim-engine")
         self.proc.start()
         theirs.close()
@@ -90,9 +94,12 @@ class EngineProcess:
         Start the children now rather than at the first :meth:`simulate`.
     stop_grace : float
         Seconds a run flagged stale may take to stop before its child is killed.
+    nice : int
+        How much lower than the window's the children's scheduling priority is.
     """
 
-    def __init__(self, start=True, stop_grace=STOP_GRACE_S):
+    def __init__(self, start=True, stop_grace=STOP_GRACE_S, nice=0):
+        self.nice = nice
         self._ctx = multiprocessing.get_context("spawn")  # never fork a process running Qt
         self._lock = threading.Lock()
         self.closed = False
@@ -108,9 +115,9 @@ class EngineProcess:
             if self.closed:
                 return
             if self.child is None:
-                self.child, self.spare = self.spare or _Child(self._ctx), None
+                self.child, self.spare = self.spare or _Child(self._ctx, self.nice), None
             if self.spare is None and self.replaced:
-                self.spare = _Child(self._ctx)
+                self.spare = _Child(self._ctx, self.nice)
 
     def _replace(self):
         """End the current child (its run is stale or it died) and take the spare."""

@@ -141,23 +141,39 @@ class FieldRow(QWidget):
         grid.addWidget(self.error, 2, 0, 1, 3)
         grid.setColumnStretch(0, 1)
         self.scale = None
+        self._changing = None  # "slider", "entry" or "choice" while its change is handled
         self.set_value(value, is_set)
 
     def set_value(self, value, is_set=True):
-        """Show ``value`` without emitting ``edited``."""
+        """Show ``value`` without emitting ``edited``; it becomes the value the row
+        compares new entries with. A slider being dragged is left where the user
+        holds it; an entry just typed in shows the value as it is now written."""
         self.value, self.is_set = value, is_set
-        if self.choice is not None:
+        if self.choice is not None and self._changing != "choice":
             self._show_choice(value)
         if self.entry is not None:
             text = format_value(self.field, value)
-            self.entry.setText(text if is_set else "")
-            self.entry.setPlaceholderText("" if is_set else f"{text} (default)")
-        if self.slider is not None:
+            if self._changing != "slider":  # a drag has already written the entry
+                self.entry.setText(text if is_set else "")
+            # the default greyed, whole: "(default)" would not fit beside a long number
+            self.entry.setPlaceholderText("" if is_set else text)
+            self.entry.setToolTip("" if is_set else f"Default {text}: not in the file; "
+                                                    "type a value to set it")
+        if self.slider is not None and self._changing != "slider":
             self.scale = SliderScale(self.field, value)
             self.slider.blockSignals(True)
             self.slider.setRange(*self.scale.positions)
             self.slider.setValue(self.scale.to_position(value))
             self.slider.blockSignals(False)
+
+    def _emit(self, control, value):
+        """Ask for ``value``; while the window answers (it calls :meth:`set_value`
+        back if it takes it), ``control`` is the one the user is working."""
+        self._changing = control
+        try:
+            self.edited.emit(self.key, value)
+        finally:
+            self._changing = None
 
     def _show_choice(self, value):
         """Select ``value``; a value outside the list (``{ linear_deg = 30 }``) is shown
@@ -194,15 +210,16 @@ class FieldRow(QWidget):
         value = self.scale.to_value(position)
         if self.entry is not None:
             self.entry.setText(format_value(self.field, value))
-        self.edited.emit(self.key, value)
+        self._emit("slider", value)
 
     def _typed(self):
         text = self.entry.text().strip()
         if text == format_value(self.field, self.value) and self.is_set:
+            self.clear_error()  # back to the value in force: nothing to apply
             return
         if not text:
             if self.is_set:
-                self.edited.emit(self.key, None)
+                self._emit("entry", None)
             return
         if self.field.kind not in SIMPLE:  # compound: typed as its TOML value, e.g. [2, 3]
             try:
@@ -210,7 +227,7 @@ class FieldRow(QWidget):
             except tomllib.TOMLDecodeError:
                 self.show_error(f"'{text}' is not a value such as [2, 3]; nothing was changed.")
                 return
-            self.edited.emit(self.key, value)
+            self._emit("entry", value)
             return
         try:
             number = float(text.replace("−", "-"))
@@ -219,12 +236,12 @@ class FieldRow(QWidget):
             return
         if self.field.kind is int and number.is_integer():
             number = int(number)
-        self.edited.emit(self.key, number)
+        self._emit("entry", number)
 
     def _choice_made(self, index):
         value = self.choice.itemData(index)
         if value != self.value:
-            self.edited.emit(self.key, value)
+            self._emit("choice", value)
         if index < len(self.field.choices):  # a listed value replaces an unlisted one
             while self.choice.count() > len(self.field.choices):
                 self.choice.removeItem(len(self.field.choices))

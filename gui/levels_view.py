@@ -14,9 +14,10 @@ from pumpsim import constants as K
 from pumpsim.lines import line
 
 from .plot_view import PlotView
-from .theme import base_font, readable, set_title, wavelength_colour
+from .theme import base_font, readable, wavelength_colour
 
 LABEL_GAP = 0.045  # least vertical distance between level labels, fraction of the energy range
+LABEL_ROOM = 10.0  # x room right of the last column for the level labels (column widths)
 LEAK_DROP = 0.07  # length of an arrow to "other", fraction of the energy range
 
 
@@ -63,15 +64,14 @@ class LevelsView(PlotView):
     """The scheme's levels, lasers and decay branches."""
 
     def __init__(self, parent=None):
-        super().__init__(parent)
+        super().__init__(parent, caption_lines=2)
         item = self.plot.getPlotItem()
         item.setLabel("left", "energy above the lowest level (cm⁻¹)")
         item.hideAxis("bottom")
         item.setMouseEnabled(False, False)
         item.hideButtons()
-        self.legend.hide()
         self.setup = None
-        self.caption.setText("Drawn to scale in energy. Thick arrows up: the lasers' driven lines. "
+        self.set_caption("Drawn to scale in energy. Thick arrows up: the lasers' driven lines. "
                              "Thin arrows down: decay branches with their branching ratio. "
                              "Dotted: decays the scheme does not list (lost to “other”).")
 
@@ -127,9 +127,9 @@ class LevelsView(PlotView):
                 end = E[up] - LEAK_DROP * top
                 self._arrow(xs, E[up], end, colour, 1.5, "x", Qt.DotLine)
                 self._text(xs + 0.35, end, f"other {value:.0%}", colour, rotate=False)
-        self.plot.getPlotItem().setXRange(-1.0, right + 7.0, padding=0)
+        self.plot.getPlotItem().setXRange(-1.0, right + LABEL_ROOM, padding=0)
         self.plot.getPlotItem().setYRange(-0.04 * top, 1.06 * top, padding=0)
-        set_title(self.plot, f"{scheme.name}: levels to scale in energy", t)
+        self.set_heading(f"{scheme.name}: levels to scale in energy")
 
     def _arrow(self, x, y0, y1, colour, width, symbol, style=Qt.SolidLine):
         self.plot.plot([x, x], [y0, y1], pen=pg.mkPen(colour, width=width, style=style))

@@ -8,8 +8,8 @@ from PySide6.QtCore import Qt
 from pumpsim.safety import cautions
 
 from . import studies
+from .plot_view import key_entry
 from .study_view import ENGINE_TOLERANCE, Plan, StudyView
-from .theme import set_title
 
 
 class PowerView(StudyView):
@@ -39,13 +39,11 @@ class PowerView(StudyView):
         if ok.any():
             colour = t.muted if np.isfinite(eng).any() else t.accent
             self.plot.plot(self.powers[ok], quick[ok], pen=pg.mkPen(colour, width=2,
-                                                                    style=Qt.DashLine),
-                           name="quick estimate")
+                                                                    style=Qt.DashLine))
         ok = np.isfinite(eng)
         if ok.any():
             self.plot.plot(self.powers[ok], eng[ok], pen=pg.mkPen(t.accent, width=2.5),
-                           symbol="o", symbolSize=6, symbolBrush=t.accent, symbolPen=None,
-                           name=f"engine (tolerance {ENGINE_TOLERANCE:g})")
+                           symbol="o", symbolSize=6, symbolBrush=t.accent, symbolPen=None)
         p_now = setup.beam(beam).power * 1e3
         self.plot.addItem(pg.InfiniteLine(self.wanted, angle=0, pen=pg.mkPen(t.target, style=Qt.DotLine),
                                           label=f"goal {self.wanted:.0%}",
@@ -56,10 +54,14 @@ class PowerView(StudyView):
             f_now = self._at(p_now)
             if f_now is not None:
                 self.plot.plot([p_now], [f_now], pen=None, symbol="star", symbolSize=16,
-                               symbolBrush=t.target, symbolPen=pg.mkPen(t.panel),
-                               name=f"set point {p_now:.3g} mW")
-        set_title(self.plot, f"Transfer against power: {self.progress_text()}", t)
-        self.caption.setText(self._caption(setup, beam))
+                               symbolBrush=t.target, symbolPen=pg.mkPen(t.panel))
+        self.set_key([key_entry("quick estimate", t.muted if np.isfinite(eng).any() else t.accent,
+                                Qt.DashLine),
+                      key_entry(f"engine (tolerance {ENGINE_TOLERANCE:g})", t.accent),
+                      key_entry(f"set point {p_now:.3g} mW", t.target, shade=True),
+                      key_entry(f"goal {self.wanted:.0%}", t.target, Qt.DotLine)])
+        self.set_heading(f"Transfer against power · {self.progress_text()}")
+        self.set_caption(self._caption(setup, beam))
 
     def _at(self, power):
         f = self.best()
@@ -69,16 +71,19 @@ class PowerView(StudyView):
         return float(np.interp(np.log(power), np.log(self.powers[ok]), f[ok]))
 
     def _caption(self, setup, beam):
-        p = self.least_power()
+        p, top = self.least_power(), float(self.powers[-1])
         if p is None:
-            top = np.nanmax(self.best()) if np.isfinite(self.best()).any() else np.nan
-            head = (f"The goal {self.wanted:.0%} is not reached up to {self.powers[-1]:.3g} mW "
-                    f"(best {top:.1%}).")
-            warn = cautions(setup)
+            best = np.nanmax(self.best()) if np.isfinite(self.best()).any() else np.nan
+            head = (f"The goal {self.wanted:.0%} is not reached up to {top:.4g} mW "
+                    f"(best {best:.1%}).")
+            warn = cautions(setup, powers={beam: top * 1e-3})
         else:
             head = f"Least power for {self.wanted:.0%}: {p:.3g} mW (interpolated on this curve)."
             warn = cautions(setup, powers={beam: p * 1e-3})
-        return head + "\n" + "\n".join("⚠ " + w for w in warn if w.startswith(f"{beam}: "))
+            warn += [f"up to {top:.4g} mW on this axis: {w}"
+                     for w in cautions(setup, powers={beam: top * 1e-3})]
+        mine = [w for w in warn if w.startswith(f"{beam}: ") or f" mW on this axis: {beam}: " in w]
+        return head + "\n" + "\n".join("⚠ " + w for w in mine)
 
     def curves(self):
         header = ["power_mW", "fraction_quick", "fraction_engine", "photons_per_atom",

@@ -4,24 +4,26 @@ laser's intensity profile shaded behind them. A sublevel-resolved result
 
 import numpy as np
 import pyqtgraph as pg
+from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QComboBox, QGraphicsItem, QHBoxLayout, QLabel
 
 from pumpsim.beam_shapes import shape_of
 from pumpsim.lines import line
 
-from .plot_view import PlotView
-from .theme import set_title, wavelength_colour
+from .plot_view import PlotView, key_entry
+from .theme import readable, shade, wavelength_colour
 
 SHADE_POINTS = 400  # the shading is drawn from the beam shape, not the coarse result grid
-SHADE_ALPHA = "40"
-LEGEND_FLOOR = 1e-3  # sublevels that never hold this much are drawn but left out of the legend
-SUBLEVEL_STYLES = (pg.QtCore.Qt.SolidLine, pg.QtCore.Qt.DashLine, pg.QtCore.Qt.DotLine,
-                   pg.QtCore.Qt.DashDotLine, pg.QtCore.Qt.DashDotDotLine)
+SHADE_ALPHA = {"light": "40", "dark": "70"}
+# one fill pattern per laser, so two lasers of near colours stay apart
+SHADE_PATTERNS = (Qt.SolidPattern, Qt.BDiagPattern, Qt.FDiagPattern, Qt.DiagCrossPattern)
+LEGEND_FLOOR = 1e-3  # sublevels that never hold this much are drawn but left out of the key
+SUBLEVEL_STYLES = (Qt.SolidLine, Qt.DashLine, Qt.DotLine, Qt.DashDotLine, Qt.DashDotDotLine)
 SHOW = (("levels", "levels"), ("sublevels", "magnetic sublevels"))
 CAPTIONS = {False: "Lines: mean population of each level over all atoms of the beam. "
                    "Shaded: each laser's intensity along the beam axis.",
             True: "Lines: mean population of each magnetic sublevel over all atoms of the beam, "
-                  "in the colour of its level, one line style per sublevel (the legend lists "
+                  "in a shade of its level's colour per F, one line style per m (the key lists "
                   "those that reach 0.1%). Shaded: each laser's intensity along the beam axis."}
 
 
@@ -39,11 +41,11 @@ def stage_text(update):
     setup's tolerance), converged or not, always naming the tolerance of an engine result."""
     n = update.result.numerics
     if update.stage == "quick":
-        return f"Quick estimate ({n.nodes} atom classes, {n.steps} steps): converged result on its way"
+        return f"Quick estimate ({n.nodes} atom classes, {n.steps} steps); engine result on its way"
     if update.stage == "coarse" and n.converged:
-        return (f"Converged to the coarse tolerance {n.tolerance:g} (error estimate "
-                f"{n.error_estimate['total']:.1e}), {n.nodes} atom classes: "
-                "result at the setup's tolerance on its way")
+        return (f"Converged to {n.tolerance:g} (error estimate "
+                f"{n.error_estimate['total']:.1e}, {n.nodes} atom classes); refining to the "
+                "setup's tolerance")
     if n.converged:
         return (f"Converged: error estimate {n.error_estimate['total']:.1e} "
                 f"(tolerance {n.tolerance:g}), {n.nodes} atom classes")
@@ -55,7 +57,7 @@ class ProfileView(PlotView):
     """Populations against z (mm), laser profiles shaded, goal line for the target."""
 
     def __init__(self, parent=None):
-        super().__init__(parent)
+        super().__init__(parent, caption_lines=2)
         item = self.plot.getPlotItem()
         item.setLabel("bottom", "position along the atomic beam, z (mm)")
         item.setLabel("left", "population (fraction of atoms)")
@@ -73,12 +75,10 @@ class ProfileView(PlotView):
         bar.addWidget(self.show_label)
         bar.addWidget(self.show_choice)
         bar.addStretch(1)
-        self.layout().insertLayout(0, bar)
+        self.column.insertLayout(0, bar)
         for w in (self.show_label, self.show_choice):
             w.setVisible(False)
-        self.legend.setColumnCount(2)
-        self.legend.anchor(itemPos=(1, 0.5), parentPos=(1, 0.55), offset=(-12, 0))
-        self.caption.setText(CAPTIONS[False])
+        self.set_caption(CAPTIONS[False])
 
     def display(self, live, wanted=None):
         self.live, self.wanted = live, wanted
@@ -114,7 +114,7 @@ class ProfileView(PlotView):
         self.show_choice.setToolTip("" if r.sublevels is not None else
                                     "Sublevel populations come with the engine result")
         names, pops = self.curve_data()
-        self.caption.setText(CAPTIONS[self.showing_sublevels])
+        self.set_caption(CAPTIONS[self.showing_sublevels])
         legend = tuple(bool(np.max(pops[:, i]) >= LEGEND_FLOOR) or not self.showing_sublevels
                        for i in range(len(names)))
         beams = [(b, line(setup.scheme, b.lower, b.upper).wavelength * 1e9) for b in setup.beams]
@@ -137,40 +137,58 @@ class ProfileView(PlotView):
         if self.wanted is not None:
             self.goal.setValue(self.wanted)
             self.goal.label.setFormat(f"goal {self.wanted:.0%} in {setup.target}")
-        set_title(self.plot, stage_text(self.live), t,
-                  t.muted if self.live.stage == "quick" else t.text)
+        self.set_heading("Populations along the beam · " + stage_text(self.live),
+                         t.muted if self.live.stage == "quick" else t.text)
 
     def _build(self, setup, r, names, legend, beams):
         t = self.theme
         levels = r.levels
-        self.shades = []
-        for b, nm in beams:
-            colour = wavelength_colour(nm)
-            item = pg.PlotDataItem(pen=pg.mkPen(colour, width=1), fillLevel=0.0,
-                                   brush=pg.mkBrush(colour + SHADE_ALPHA),
-                                   name=f"laser “{b.name}” {nm:.0f} nm")
+        self.shades, key = [], []
+        for i, (b, nm) in enumerate(beams):
+            colour = readable(wavelength_colour(nm), t)
+            brush = pg.mkBrush(colour + SHADE_ALPHA[t.name])
+            brush.setStyle(SHADE_PATTERNS[i % len(SHADE_PATTERNS)])
+            item = pg.PlotDataItem(pen=pg.mkPen(colour, width=1), fillLevel=0.0, brush=brush)
             item.curve.setCacheMode(QGraphicsItem.DeviceCoordinateCache)  # the painting child
             self.plot.addItem(item)
             self.shades.append(item)
+            key.append(key_entry(f"laser “{b.name}” {nm:.0f} nm", colour,
+                                 shade=SHADE_PATTERNS[i % len(SHADE_PATTERNS)]))
         self.lines = []
         if self.showing_sublevels:
-            # a sublevel takes its level's colour; line styles tell a level's sublevels apart
-            level_of = list(r.sublevels.level_of) + [len(levels) - 1]
-            within = [level_of[:i].count(k) for i, k in enumerate(level_of)]
-            pens = [pg.mkPen(t.level_colour(k, len(levels)), width=1.6,
-                             style=SUBLEVEL_STYLES[j % len(SUBLEVEL_STYLES)])
-                    for k, j in zip(level_of, within)]
+            pens = self._sublevel_pens(r)
         else:
             pens = [pg.mkPen(t.level_colour(i, len(levels)),
                              width=3.2 if lid == setup.target else 2.0,
-                             style=pg.QtCore.Qt.DashLine if lid == "other" else pg.QtCore.Qt.SolidLine)
+                             style=Qt.DashLine if lid == "other" else Qt.SolidLine)
                     for i, lid in enumerate(levels)]
         for pen, name, named in zip(pens, names, legend):
             self.lines.append(self.plot.plot(pen=pen, name=name if named else None))
-        self.goal = pg.InfiniteLine(0.0, angle=0, pen=pg.mkPen(t.target, width=1,
-                                                               style=pg.QtCore.Qt.DotLine),
+            if named:
+                key.append(key_entry(name, pen.color().name(), pen.style()))
+        self.set_key(key)
+        self.goal = pg.InfiniteLine(0.0, angle=0, pen=pg.mkPen(t.target, width=1, style=Qt.DotLine),
                                     label="goal", labelOpts={"position": 0.08, "color": t.target})
         self.plot.addItem(self.goal)
+
+    def _sublevel_pens(self, r):
+        """One pen per sublevel curve (then ``other``): the level's colour, a lighter or
+        darker shade of it per hyperfine level F, and a line style per m within that F,
+        so that no two sublevels of a level look alike."""
+        t, levels = self.theme, self.live.result.levels
+        level_of = list(r.sublevels.level_of) + [len(levels) - 1]
+        groups = [" ".join(q for q in lab.split() if not q.startswith("m="))
+                  for lab in r.sublevels.labels] + ["other"]
+        pens = []
+        for i, (k, g) in enumerate(zip(level_of, groups)):
+            same_level = list(dict.fromkeys(x for x, j in zip(groups, level_of) if j == k))
+            f_index = same_level.index(g)
+            m_index = groups[:i].count(g)
+            colour = shade(t.level_colour(k, len(levels)), f_index, t)
+            style = SUBLEVEL_STYLES[m_index % len(SUBLEVEL_STYLES)]
+            width = 1.6 if m_index < len(SUBLEVEL_STYLES) else 2.8
+            pens.append(pg.mkPen(colour, width=width, style=style))
+        return pens
 
     @staticmethod
     def _level_name(setup, lid):

@@ -5,16 +5,20 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QAbstractItemView, QHBoxLayout, QHeaderView, QPushButton,
-                               QTableWidget, QTableWidgetItem)
+                               QSplitter, QTableWidget, QTableWidgetItem)
 
 from pumpsim.safety import cautions
 
 from . import studies
+from .plot_view import key_entry
 from .study_view import Plan, StudyView
-from .theme import set_title, wavelength_colour
+from .theme import readable, wavelength_colour
 
-HEADER = ("route", "λ (nm)", "σ₀ (m²)", "decays to target", "decays to other",
-          "transfer at set power", "power for goal (mW)", "photons per atom", "deflection (mrad)")
+HEADER = ("route", "λ\n(nm)", "σ₀\n(m²)", "decays to\ntarget", "decays to\nother",
+          "transfer at\nset power", "power for\ngoal (mW)", "photons\nper atom",
+          "deflection\n(mrad)")
+TABLE_ROWS_SHOWN = 4  # rows the table shows without scrolling
+STYLES = (Qt.SolidLine, Qt.DashLine, Qt.DashDotLine, Qt.DotLine)
 
 
 class RoutesView(StudyView):
@@ -23,7 +27,7 @@ class RoutesView(StudyView):
     use_route = Signal(str, str, str)
 
     def __init__(self, parent=None):
-        super().__init__(parent)
+        super().__init__(parent, caption_lines=6, min_height=620)
         item = self.plot.getPlotItem()
         item.setLogMode(x=True, y=False)
         item.setLabel("left", "transfer fraction into the target")
@@ -34,17 +38,27 @@ class RoutesView(StudyView):
         self.table.setSelectionBehavior(QAbstractItemView.SelectRows)
         self.table.setSelectionMode(QAbstractItemView.SingleSelection)
         self.table.setEditTriggers(QAbstractItemView.NoEditTriggers)
-        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeToContents)
-        self.table.horizontalHeader().setStretchLastSection(True)
-        self.table.setMinimumHeight(150)
-        layout = self.layout()
-        layout.insertWidget(1, self.table)
+        # every column shares the width (none hides behind a scrollbar); the table and
+        # the plot share the height through a splitter the user can move
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.Stretch)
+        self.table.horizontalHeader().setMinimumSectionSize(40)
+        self.table.setHorizontalScrollBarPolicy(Qt.ScrollBarAlwaysOff)
+        self.table.setWordWrap(True)
+        self.split = QSplitter(Qt.Vertical)
+        self.split.setChildrenCollapsible(False)
+        self.figure_layout.removeWidget(self.plot)
+        self.split.addWidget(self.table)
+        self.split.addWidget(self.plot)
+        self.plot.setMinimumHeight(240)
+        self.split.setStretchFactor(0, 2)
+        self.split.setStretchFactor(1, 3)
+        self.figure_layout.insertWidget(1, self.split, 1)
         buttons = QHBoxLayout()
         self.use_button = QPushButton("Drive the selected route with this laser")
         self.use_button.clicked.connect(self._use_selected)
         buttons.addWidget(self.use_button)
         buttons.addStretch(1)
-        layout.insertLayout(2, buttons)
+        self.column.insertLayout(0, buttons)
         self.routes, self.powers, self.ranked = [], np.array([]), []
 
     def make_plan(self, setup, beam):
@@ -81,29 +95,34 @@ class RoutesView(StudyView):
             return
         t, setup, beam = self.theme, self.plan.setup, self.plan.beam
         now = setup.beam(beam)
-        styles = (Qt.SolidLine, Qt.DashLine, Qt.DashDotLine, Qt.DotLine)
+        key = []
         for k, r in enumerate(self.routes):
             f = self.per_route()[k]
             ok = np.isfinite(f)
+            current = r.upper == now.upper
+            colour = readable(wavelength_colour(r.wavelength * 1e9), t)
+            style = STYLES[k % len(STYLES)]
             if ok.any():
-                current = r.upper == now.upper
-                pen = pg.mkPen(wavelength_colour(r.wavelength * 1e9), width=3 if current else 2,
-                               style=styles[k % len(styles)])
-                self.plot.plot(self.powers[ok], f[ok], pen=pen,
-                               name=f"{r.lower} → {r.upper} {r.wavelength * 1e9:.1f} nm"
-                                    + (" (set)" if current else ""))
+                self.plot.plot(self.powers[ok], f[ok], pen=pg.mkPen(colour, width=3 if current
+                                                                     else 2, style=style))
+            key.append(key_entry(f"{r.lower} → {r.upper} {r.wavelength * 1e9:.1f} nm"
+                                 + (" (set)" if current else ""), colour, style))
+        self.set_key(key)
         self.plot.addItem(pg.InfiniteLine(self.wanted, angle=0, pen=pg.mkPen(t.target, style=Qt.DotLine),
                                           label=f"goal {self.wanted:.0%}",
                                           labelOpts={"position": 0.06, "color": t.target}))
         if now.power > 0:
             self.plot.addItem(pg.InfiniteLine(np.log10(now.power * 1e3), angle=90,
                                               pen=pg.mkPen(t.rule, style=Qt.DashLine)))
-        set_title(self.plot, f"Routes out of {now.lower}: {self.progress_text()}", t)
+        self.set_heading(f"Routes out of {now.lower} · {self.progress_text()}")
         self._fill_table(setup, beam)
 
     def _fill_table(self, setup, beam):
         self.ranked = self.rows()
         self.table.setRowCount(len(self.ranked))
+        shown = min(len(self.ranked), TABLE_ROWS_SHOWN)
+        self.table.setMinimumHeight(self.table.horizontalHeader().sizeHint().height() + 4
+                                    + shown * self.table.verticalHeader().defaultSectionSize())
         warnings = []
         for i, (r, need, at) in enumerate(self.ranked):
             cells = (f"{r.lower} → {r.upper}", f"{r.wavelength * 1e9:.2f}", f"{r.sigma0:.3g}",
@@ -124,8 +143,8 @@ class RoutesView(StudyView):
         text = ("Ranked by the least power that reaches the goal (interpolated on the curves), "
                 "then by the transfer at the set power. ")
         if unreached:
-            text += (f"Not reached up to {self.powers[-1]:.3g} mW: {', '.join(unreached)}. ")
-        self.caption.setText(text + "\n" + "\n".join(f"⚠ {w}" for w in dict.fromkeys(warnings)))
+            text += (f"Not reached up to {self.powers[-1]:.4g} mW: {', '.join(unreached)}. ")
+        self.set_caption(text + "\n" + "\n".join(f"⚠ {w}" for w in dict.fromkeys(warnings)))
 
     @staticmethod
     def _need_text(need, curve):

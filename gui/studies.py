@@ -21,7 +21,7 @@ from pumpsim.lines import line
 from pumpsim.schema import fields_of
 
 WAIST_DECADES = 0.6  # waist grid: the set waist times 10**(-0.6 ... +0.6)
-POWER_POINTS, MAP_POWERS, MAP_WAISTS = 16, 11, 8
+POWER_POINTS, MAP_WAISTS = 16, 8  # the map uses the power tab's powers
 
 
 def _field(key):

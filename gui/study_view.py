@@ -1,6 +1,7 @@
 """What the three study views share: a sweep over setups in two passes.
 
-Pass ``"quick"`` evaluates every point with the quick estimate, so the whole
+Every point waits for the live result first (see
+:class:`~pumpsim_gui.worker.StudyCompute`). Pass ``"quick"`` evaluates every point with the quick estimate, so the whole
 picture appears in seconds; pass ``"engine"`` then evaluates the same points
 with :func:`pumpsim.simulate` at a coarse tolerance and replaces them as
 they arrive. The view's title says which pass each number comes from.
@@ -17,7 +18,7 @@ import numpy as np
 from PySide6.QtCore import QTimer
 
 from . import studies
-from .evaluate import quick_estimate
+from .evaluate import Superseded, quick_estimate
 from .plot_view import PlotView
 
 ENGINE_TOLERANCE = 1e-2  # studies compare points; 1e-2 in population is enough to rank them
@@ -47,11 +48,30 @@ class Plan:
     changes: list
 
 
-def evaluator(stage, superseded, engine):
-    """``evaluate(setup) -> Result`` for one pass; ``engine`` is an EngineProcess."""
+def evaluator(stage, superseded, compute):
+    """``evaluate(setup) -> Result`` for one pass; ``compute`` is the StudyCompute.
+
+    Every point first waits for the live result (``compute.wait_turn``); an
+    engine run that a new live request interrupts is run again once that is in.
+    """
     if stage == "quick":
-        return quick_estimate
-    return lambda setup: engine.simulate(setup, superseded, tolerance=ENGINE_TOLERANCE)
+        def quick(setup):
+            compute.wait_turn(superseded)
+            return quick_estimate(setup)
+        return quick
+
+    def engine(setup):
+        while True:
+            compute.wait_turn(superseded)
+            try:
+                return compute.engine.simulate(
+                    setup, lambda: superseded() or compute.live_busy(),
+                    tolerance=ENGINE_TOLERANCE)
+            except Superseded:
+                if superseded():
+                    raise
+
+    return engine
 
 
 class StudyView(PlotView):
@@ -61,8 +81,10 @@ class StudyView(PlotView):
     :meth:`redraw`; values arrive in :attr:`values` (pass -> quantity -> array).
     """
 
-    def __init__(self, parent=None):
-        super().__init__(parent)
+    def __init__(self, parent=None, **kw):
+        kw.setdefault("caption_lines", 5)
+        kw.setdefault("min_height", 380)
+        super().__init__(parent, **kw)
         self.job_id, self.plan, self.wanted = 0, None, 0.9
         self.values = {}
         self.done = set()
@@ -85,10 +107,10 @@ class StudyView(PlotView):
         self.redraw()
         plan, job_id = self.plan, self.job_id
 
-        def job(emit, superseded, engine):
+        def job(emit, superseded, compute):
             for stage in PASSES:
                 for i, r in studies.sweep(plan.setup, plan.changes,
-                                          evaluator(stage, superseded, engine)):
+                                          evaluator(stage, superseded, compute)):
                     if superseded():
                         return
                     emit(Point(job_id, stage, i, r.transfer_fraction,

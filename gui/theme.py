@@ -49,6 +49,8 @@ class Theme:
         return self.levels[index % len(self.levels)]
 
     def colour_map(self):
+        """Diverging: one hue below the goal, another above, neutral at the goal
+        (the centre of the map's colour scale)."""
         return pg.ColorMap(np.linspace(0.0, 1.0, len(self.map_stops)), list(self.map_stops))
 
 
@@ -60,7 +62,7 @@ LIGHT = Theme(
     levels=("#1f66a8", "#b8412b", "#24805f", "#7d4fae", "#9c6c0c", "#1d8aa0", "#a63d74",
             "#58682f"),
     other="#6e727a",
-    map_stops=("#f6f2e6", "#cfe3d4", "#7fb7b0", "#3b7f95", "#1f3f66"))
+    map_stops=("#4b2378", "#a58bd0", "#f4f0e4", "#72b89a", "#145c43"))
 
 DARK = Theme(
     name="dark", window="#161a20", panel="#1e232b", sunken="#272d37", text="#ece7dc",
@@ -70,7 +72,7 @@ DARK = Theme(
     levels=("#72aef0", "#f2866d", "#62cfa4", "#bf98ea", "#e8bd55", "#62cde3", "#ea86b8",
             "#aec272"),
     other="#9aa0a8",
-    map_stops=("#12171e", "#1d4457", "#2f7f86", "#73b98d", "#ecdf97"))
+    map_stops=("#d2b6ff", "#6e4f9c", "#262b33", "#3f8f6f", "#9fe8c2"))
 
 THEMES = {t.name: t for t in (LIGHT, DARK)}
 
@@ -78,6 +80,7 @@ STYLE = """
 QWidget {{ color: {text}; }}
 QMainWindow, QWidget#root {{ background: {window}; }}
 QScrollArea, QScrollArea > QWidget > QWidget#setupPanel {{ background: {window}; border: none; }}
+QScrollArea#viewScroll, QWidget#viewBody {{ background: {panel}; }}
 QGroupBox {{
     background: {panel}; border: 1px solid {rule}; border-radius: 6px;
     margin-top: 1.6em; padding: 8px 8px 6px 8px; font-weight: 600;
@@ -185,11 +188,6 @@ def style_plot(plot_widget, theme, grid=True):
     item.showGrid(x=grid, y=grid, alpha=0.18 if theme.name == "light" else 0.22)
 
 
-def set_title(plot_widget, text, theme, colour=None):
-    plot_widget.getPlotItem().setTitle(text, color=colour or theme.text,
-                                       size=f"{BASE_POINT_SIZE + 1}pt", bold=True)
-
-
 # Approximate colour of light of a given wavelength: hue anchors of the
 # visible spectrum (common practice, no source), linear in between, faded
 # towards the edges of vision; ultraviolet and infrared get muted stand-ins.
@@ -213,8 +211,20 @@ def wavelength_colour(wavelength_nm):
 def readable(colour, theme, share=0.45):
     """``colour`` moved ``share`` of the way to the theme's text colour, for text
     in a spectral colour (deep blue or violet is too dark to read on slate)."""
-    if theme.name == "light":
-        return colour
+    return colour if theme.name == "light" else _mix(colour, theme.text, share)
+
+
+def _mix(colour, other, share):
     a = [int(colour[i:i + 2], 16) for i in (1, 3, 5)]
-    b = [int(theme.text[i:i + 2], 16) for i in (1, 3, 5)]
+    b = [int(other[i:i + 2], 16) for i in (1, 3, 5)]
     return "#" + "".join(f"{round(x + share * (y - x)):02x}" for x, y in zip(a, b))
+
+
+SHADE_STEPS = ((None, 0.0), ("text", 0.5), ("panel", 0.4), ("text", 0.75))
+
+
+def shade(colour, index, theme):
+    """The ``index``-th shade of ``colour``: itself, then moved towards the text and
+    towards the panel colour in turn (distinct sublevel groups of one level)."""
+    towards, share = SHADE_STEPS[index % len(SHADE_STEPS)]
+    return colour if towards is None else _mix(colour, getattr(theme, towards), share)

@@ -24,7 +24,7 @@ from pumpsim.errors import InputError
 from . import files
 from . import theme as th
 from .banners import CautionBar, MessageBar
-from .controls import SetupPanel
+from .controls import PANEL_WIDTH, SetupPanel
 from .edits import apply_edit
 from .levels_view import LevelsView
 from .map_view import MapView
@@ -37,6 +37,7 @@ from .worker import Freshness, LiveCompute, StudyCompute
 
 STUDY_DELAY_MS = 400  # a visible study restarts once the setup has stood still this long
 DEFAULT_GOAL = 0.9
+PANEL_SHARE = PANEL_WIDTH + 30  # the setup panel's starting width (px); the splitter moves it
 STATUS_WORDS = {"quick": "Quick estimate", "coarse": "Engine (coarse tolerance)", "engine": "Engine"}
 
 
@@ -66,11 +67,12 @@ class MainWindow(QMainWindow):
         self.setup, self.saved_document = setup, copy.deepcopy(setup.document)
         self.live = live or LiveCompute()
         self.live.setParent(self)
-        self.studies = StudyCompute(self)
+        self.studies = StudyCompute(self, live_idle=self.live.idle)
         self.freshness = Freshness()
         self.shown = None
         self.failure = None  # (generation, message) of the newest request that raised
-        self.study_keys = {}
+        self.study_keys, self.study_running = {}, None
+        self.undone, self.redone = [], []  # setups before each edit, and those undone
 
         self.message = MessageBar()
         self.panel = SetupPanel()
@@ -129,7 +131,7 @@ class MainWindow(QMainWindow):
         split.addWidget(self.panel)
         split.addWidget(right)
         split.setStretchFactor(1, 1)
-        split.setSizes([440, 1000])
+        split.setSizes([PANEL_SHARE, 1000])
         root = QWidget()
         root.setObjectName("root")
         outer = QVBoxLayout(root)
@@ -161,6 +163,14 @@ class MainWindow(QMainWindow):
             m.addAction(action)
             self.menu_actions[text.replace("&", "").rstrip("…")] = action
         self.export_result_action = self.menu_actions["Export result as HDF5"]
+        e = self.menuBar().addMenu("&Edit")
+        for text, slot, key in (("&Undo change", self.undo, QKeySequence.Undo),
+                                ("&Redo change", self.redo, QKeySequence.Redo)):
+            action = QAction(text, self)
+            action.setShortcut(key)
+            action.triggered.connect(slot)
+            e.addAction(action)
+            self.menu_actions[text.replace("&", "")] = action
         v = self.menuBar().addMenu("&View")
         self.dark_action = QAction("&Dark theme", self, checkable=True)
         self.dark_action.toggled.connect(lambda on: self.apply_theme("dark" if on else "light"))
@@ -184,11 +194,11 @@ class MainWindow(QMainWindow):
         """Whether the setup differs from the file it was read from or saved to."""
         return self.setup.document != self.saved_document
 
-    def set_setup(self, setup, except_key=None):
+    def set_setup(self, setup):
         """Show and compute ``setup`` (already validated)."""
         self.setup = setup
         self.live.request(setup)  # first: the quick estimate starts while the panel catches up
-        self.panel.load(setup, except_key)
+        self.panel.load(setup)
         self.caution.display(setup)
         names = [b.name for b in setup.beams]
         if [self.study_beam.itemText(i) for i in range(self.study_beam.count())] != names:
@@ -212,10 +222,28 @@ class MainWindow(QMainWindow):
         try:
             new = apply_edit(self.setup, key, value)
         except InputError as exc:
+            # said under the control; a status-bar line would outlive the next change
             self.panel.show_error(key, f"{exc.reason} — nothing was changed.")
-            self.statusBar().showMessage(f"Not applied: {exc}", 8000)
             return False
-        self.set_setup(new, except_key=key)
+        self.undone.append(self.setup)
+        self.redone.clear()
+        self.set_setup(new)
+        return True
+
+    def undo(self):
+        """Go back to the setup before the last change; False if there is none."""
+        if not self.undone:
+            return False
+        self.redone.append(self.setup)
+        self.set_setup(self.undone.pop())
+        return True
+
+    def redo(self):
+        """Make the last undone change again; False if there is none."""
+        if not self.redone:
+            return False
+        self.undone.append(self.setup)
+        self.set_setup(self.redone.pop())
         return True
 
     def _set_title(self):
@@ -237,6 +265,8 @@ class MainWindow(QMainWindow):
             self.failure = None
         self._mark_failure()
         self.profile.display(update, self.goal.value())
+        if update.stage != "quick":
+            self.panel.show_ran(update.result.numerics)
         done = update.stage == "engine" and not pending
         self.export_result_action.setEnabled(done)
         n = update.result.numerics
@@ -266,6 +296,7 @@ class MainWindow(QMainWindow):
     # -- studies ----------------------------------------------------------------
     def _tab_changed(self, _index):
         self.studies.cancel()
+        self.study_running = None
         self._refresh_tab()
 
     def _refresh_tab(self):
@@ -275,9 +306,10 @@ class MainWindow(QMainWindow):
         if not isinstance(view, StudyView) or not self.setup.beams:
             return
         key = (self.live.generation, self.study_beam.currentText())
-        if self.study_keys.get(view) == key and view.complete:
-            return
+        if self.study_keys.get(view) == key and (view.complete or self.study_running is view):
+            return  # done, or under way for this very setup
         self.study_keys[view] = key
+        self.study_running = view
         view.wanted = self.goal.value()
         self.studies.submit(view.start(self.setup, self.study_beam.currentText()))
 
@@ -297,7 +329,7 @@ class MainWindow(QMainWindow):
         try:
             setup = pumpsim.load_setup(path)
         except InputError as exc:
-            self.message.show_message(f"Could not open {path}: {exc}. Nothing was changed.")
+            self.message.show_message(f"Could not open the setup: {exc}. Nothing was changed.")
             return False
         except OSError as exc:
             self.message.show_message(f"Could not read {path}: {exc.strerror or exc}. "
@@ -305,6 +337,8 @@ class MainWindow(QMainWindow):
             return False
         self.saved_document = copy.deepcopy(setup.document)
         self.message.hide()
+        self.undone.clear()
+        self.redone.clear()
         self.set_setup(setup)
         return True
 
@@ -332,7 +366,8 @@ class MainWindow(QMainWindow):
         return self._write(path, lambda: files.write_csv(path, header, rows))
 
     def export_plot(self, path):
-        return self._write(path, lambda: files.export_figure(self.tabs.currentWidget().figure, path))
+        return self._write(path, lambda: files.export_figure(
+            self.tabs.currentWidget().figure, path, files.context_text(self.setup)))
 
     def _write(self, path, write):
         try:

@@ -11,7 +11,11 @@
   in stages on two lanes: the quick estimate at once, then on the engine
   lane the engine at the setup's own tolerance, preceded by a run at a
   coarse tolerance when runs at the setup's own have proved slow.
-* :class:`StudyCompute`: one lane for the study views' sweeps.
+* :class:`StudyCompute`: one lane for the study views' sweeps, which gives
+  way to the live result: a study waits while a live request is being
+  computed, and a study engine run that a live request interrupts is run
+  again afterwards. Its engine process also runs at a lower scheduling
+  priority, so what CPU the live result leaves is all a study takes.
 """
 
 import os
@@ -36,6 +40,7 @@ ENGINE_QUIET_S = 0.05  # the engine lane starts once a request has stood this lo
 # a run a later move makes stale stops at its next refinement round (see EngineProcess)
 POLL_S = 0.005  # how often a waiting engine job asks whether it was superseded
 STOP_WAIT_MS = 10_000  # closing waits this long for a lane's current step to end
+STUDY_NICE = 10  # the study engine's scheduling priority below the window's (Unix nice)
 
 
 def _debug_trace():
@@ -178,6 +183,8 @@ class LiveCompute(QObject):
             full = self.engine.simulate
         self.quick, self.full = quick, full
         self.generation = 0
+        self.idle = threading.Event()  # set while no request is being computed
+        self.idle.set()
         self.last_engine_s = 0.0  # engine seconds of the last run at a setup's own tolerance
         self.quick_lane, self.engine_lane = Lane("quick"), Lane("engine")
         self.quick_lane.start()
@@ -186,6 +193,7 @@ class LiveCompute(QObject):
     def request(self, setup):
         """Compute ``setup``; returns its generation number."""
         self.generation += 1
+        self.idle.clear()
         gen, t = self.generation, time.perf_counter()
         quick_done = threading.Event()
         self.quick_lane.submit(lambda superseded: self._quick(gen, setup, t, quick_done))
@@ -200,6 +208,13 @@ class LiveCompute(QObject):
             done.set()
 
     def _engine(self, gen, setup, t, superseded, quick_done):
+        try:
+            self._engine_stages(gen, setup, t, superseded, quick_done)
+        finally:
+            if gen == self.generation:  # the newest request is answered (or failed)
+                self.idle.set()
+
+    def _engine_stages(self, gen, setup, t, superseded, quick_done):
         # The quick estimate runs alone: on two cores the engine's threads would slow it
         # several times over. If the quick job was dropped, so was this one (superseded).
         while not quick_done.wait(POLL_S):
@@ -236,25 +251,59 @@ class LiveCompute(QObject):
             self.engine.close()
         self.quick_lane.stop()
         self.engine_lane.stop()
+        self.idle.set()  # nothing will be computed any more: let waiting studies end
 
 
 class StudyCompute(QObject):
     """Runs one study job at a time; a new one (or :meth:`cancel`) stops the last.
 
-    A job is ``job(emit, superseded, engine)``, ``engine`` being this lane's
-    :class:`~pumpsim_gui.engine_process.EngineProcess`; whatever the job passes
-    to ``emit`` arrives on the window's thread through :attr:`progressed`
-    unless it was superseded.
+    A job is ``job(emit, superseded, compute)``, ``compute`` being this object:
+    its :attr:`engine` (an :class:`~pumpsim_gui.engine_process.EngineProcess`
+    at lower priority), :meth:`wait_turn` and :meth:`live_busy`. Whatever the
+    job passes to ``emit`` arrives on the window's thread through
+    :attr:`progressed` unless it was superseded.
+
+    Parameters
+    ----------
+    live_idle : threading.Event, optional
+        Set while the live result is not being computed (:attr:`LiveCompute.idle`);
+        studies wait for it.
     """
 
     progressed = Signal(object)
     failed = Signal(str)
 
-    def __init__(self, parent=None):
+    def __init__(self, parent=None, live_idle=None):
         super().__init__(parent)
-        self.engine = EngineProcess(start=False)  # most sessions may never open a study
+        self.engine = EngineProcess(start=False, nice=STUDY_NICE)  # most sessions never open one
+        if live_idle is None:
+            live_idle = threading.Event()
+            live_idle.set()
+        self.live_idle = live_idle
+        self.held = False  # True while a study waits for the live result
         self.lane = Lane("studies")
         self.lane.start()
+
+    def live_busy(self):
+        return not self.live_idle.is_set()
+
+    def wait_turn(self, superseded):
+        """Return once no live request is being computed.
+
+        Raises
+        ------
+        Superseded
+            If the study is superseded meanwhile.
+        """
+        if self.live_idle.is_set():
+            return
+        self.held = True
+        try:
+            while not self.live_idle.wait(POLL_S):
+                if superseded():
+                    raise Superseded("while the live result was computed")
+        finally:
+            self.held = False
 
     def submit(self, job):
         def run(superseded):
@@ -262,7 +311,7 @@ class StudyCompute(QObject):
                 if not superseded():
                     self.progressed.emit(payload)
             try:
-                job(emit, superseded, self.engine)
+                job(emit, superseded, self)
             except Superseded:
                 pass
             except Exception as exc:

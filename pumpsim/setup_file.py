@@ -19,7 +19,7 @@ from .schema import FIELDS, REQUIRED, fields_of
 from .scheme_file import load_scheme
 from .setup import Beam, NextStage, Numerics, Setup, Source
 from .tomlread import check_keys, read_toml, table_list, text
-from .tomlwrite import dumps
+from .tomltext import dumps, restyle
 
 TOP_KEYS = {"scheme", "target", "source", "beam", "numerics", "mode", "field", "next_stage"}
 INITIAL_SUM_SLACK = 1e-6  # explicit initial populations must sum to 1 within this
@@ -336,8 +336,13 @@ def setup_to_toml(setup: Setup) -> str:
 
 
 def save_setup(setup: Setup, path) -> None:
-    """Write the setup to ``path`` atomically (temporary name, then rename)."""
+    """Write the setup to ``path`` atomically (temporary name, then rename).
+
+    A setup read from a file keeps that file's comments, key order and number
+    formats wherever a value did not change; only changed values are rewritten.
+    """
     p = Path(path)
     tmp = p.with_name(p.name + ".partial")
-    tmp.write_text(setup_to_toml(setup), encoding="utf-8")
+    text = setup_to_toml(setup) if setup.text is None else restyle(setup.document, setup.text)
+    tmp.write_text(text, encoding="utf-8")
     tmp.replace(p)

@@ -1,40 +1,20 @@
 """Small scheme and setup TOML files for the tests (invented species only).
 
-The writer here is deliberately independent of ``pumpsim.tomlwrite`` so that
-a bug there cannot hide one in the loaders. Every species is invented
+The files are written by tomlkit directly, not through ``pumpsim.tomltext``,
+so that a bug there cannot hide one in the loaders. Every species is invented
 ("Testium"); no number describes a real atom.
 """
 
-import json
 import tomllib
 from pathlib import Path
 
-
-def _value(v):
-    if isinstance(v, bool):
-        return "true" if v else "false"
-    if isinstance(v, (int, float)):
-        return repr(v)
-    if isinstance(v, str):
-        return json.dumps(v)
-    if isinstance(v, list):
-        return "[" + ", ".join(_value(x) for x in v) + "]"
-    raise TypeError(type(v))
+import tomlkit
 
 
-def toml_text(doc, prefix=""):
-    """TOML for a dict of scalars, lists, sub-tables and arrays of tables."""
-    out = [f"{k} = {_value(v)}" for k, v in doc.items()
-           if not isinstance(v, dict) and not (isinstance(v, list) and v and isinstance(v[0], dict))]
-    for k, v in doc.items():
-        if isinstance(v, dict):
-            out += ["", f"[{prefix}{k}]", toml_text(v, f"{prefix}{k}.")]
-        elif isinstance(v, list) and v and isinstance(v[0], dict):
-            for item in v:
-                out += ["", f"[[{prefix}{k}]]", toml_text(item, f"{prefix}{k}.")]
-    text = "\n".join(out).strip("\n") + "\n"
-    if not prefix:
-        assert tomllib.loads(text) == doc  # the writer round-trips what it is given
+def toml_text(doc):
+    """TOML for a dict of scalars, lists, sub-tables and arrays of tables (tomlkit)."""
+    text = tomlkit.dumps(doc)
+    assert tomllib.loads(text) == doc  # the writer round-trips what it is given
     return text
 
 

@@ -38,7 +38,7 @@ import pumpsim
 from pumpsim import ensemble
 from pumpsim.cli import main
 from pumpsim.errors import NumericalError
-from pumpsim.tomlwrite import dumps
+from pumpsim.tomltext import dumps
 
 # An invented species (no real atom): ground g (J=0), metastable target m (J=1)
 # at 1000 cm^-1, excited e (J=1) at 20000 cm^-1 (a 500 nm line) decaying 60 %

@@ -149,7 +149,7 @@ def test_window_opens_on_the_demo_with_a_control_per_schema_field(open_window, q
     assert power.entry.text() == "30"
     qtbot.waitUntil(lambda: w.shown is not None, timeout=WAIT_MS)
     assert w.readouts.fraction.text().endswith("%")
-    assert "quick" in w.profile.plot.getPlotItem().titleLabel.text.lower() or w.shown.stage != "quick"
+    assert "quick" in w.profile.heading.full.lower() or w.shown.stage != "quick"
     # the general laser caution is on show whenever powers are (IEC 60825-1 wording in pumpsim.safety)
     assert w.caution.isVisible() and "laser-safety program" in w.caution.label.text()
     assert "Class 3B" in w.panel.caution_labels["pump"].text()
@@ -169,7 +169,7 @@ def test_moving_a_slider_changes_the_readout_to_the_engine_value(open_window, qt
     assert shown.transfer_fraction == pytest.approx(expected.transfer_fraction, abs=1e-12)
     assert shown.transfer_fraction != pytest.approx(before, abs=1e-3)
     assert w.readouts.fraction.text() == f"{expected.transfer_fraction:.2%}"
-    assert "Converged" in w.profile.plot.getPlotItem().titleLabel.text
+    assert "Converged" in w.profile.heading.full
 
 
 def test_rapid_moves_coalesce_and_end_on_the_newest(open_window, qtbot, cheap_path):
@@ -329,7 +329,7 @@ def test_sublevel_view_curves_sum_to_levels_and_dark_fraction_is_the_engines(
     assert shown.sublevels.dark[shown.sublevels.labels.index("5S1/2 F=2 m=+2")]
     engine = pumpsim.simulate(w.setup)  # the same setup, computed here
     assert w.readouts.dark_fraction == pytest.approx(engine.sublevels.dark_fraction, abs=1e-12)
-    assert f"{engine.sublevels.dark_fraction:.2%}" in w.readouts.dark.text()
+    assert f"{engine.sublevels.dark_fraction:.2%}" in w.readouts.dark.full
     header, rows = view.curves()
     assert "population_5S1/2 F=2 m=+2" in header and len(rows) == len(shown.z)
     view.show_choice.setCurrentIndex(view.show_choice.findData("levels"))
@@ -471,6 +471,10 @@ def test_exports_are_valid(open_window, qtbot, tmp_path, cheap_path):
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec, section 5.2)
     root = ET.parse(svg).getroot()  # well-formed XML
     assert root.tag.endswith("svg")
+    # the figure says where it comes from: setup file, key values, tool version
+    text = " ".join(e.text or "" for e in root.iter())
+    assert "cheap.toml" in text and f"pumpsim {pumpsim.__version__}" in text
+    assert "power 0.02 mW" in text
     w.tabs.setCurrentWidget(w.levels)
     assert w.export_plot(tmp_path / "levels.png") and w.export_curves(tmp_path / "levels.csv")
     assert not w.export_plot(tmp_path / "plot.gif")

@@ -6,6 +6,7 @@ the dependencies (numpy, scipy, h5py, matplotlib) are borrowed from the environm
 running the tests through a path file, which does not execute that environment's own path
 files, so the editable install of the source tree stays invisible."""
 
+import shutil
 import subprocess
 import sys
 import sysconfig
@@ -20,9 +21,15 @@ ROOT = Path(__file__).resolve().parent.parent
 
 @pytest.fixture(scope="module")
 def wheel(tmp_path_factory):
+    # built from a copy: an in-tree build would leave build/ in the checkout, whose stale
+    # modules a later build would carry into its wheel
+    src = tmp_path_factory.mktemp("src") / "pumpsim"
+    shutil.copytree(ROOT, src, ignore=shutil.ignore_patterns(
+        ".git", ".venv", "build", "dist", "*.egg-info", "__pycache__", ".pytest_cache",
+        ".hypothesis"))
     out = tmp_path_factory.mktemp("wheel")
     subprocess.run([sys.executable, "-m", "pip", "wheel", "-q", "--no-deps", "-w", str(out),
-                    str(ROOT)], check=True, capture_output=True)
+                    str(src)], check=True, capture_output=True)
     (whl,) = out.glob("pumpsim-*.whl")
     return whl
 
