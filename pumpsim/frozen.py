@@ -65,9 +65,9 @@ class FrozenRule:
         ens = engine(setup)
         z = np.asarray(self.z)
         rule = ens.inner_rule(self.sizes)
-        if ens.speeds.single_speed is not None or not self.edges:
+        if not self.edges:  # a single-speed source
             a, y, w = rule
-            v = np.full(len(a), ens.speeds.single_speed or self.edges[0])
+            v = np.full(len(a), ens.speeds.single_speed)
             ev = ens.evaluate(v, a, y, w, np.zeros(len(a), dtype=int), 1, z)
         else:
             e = self.edges
