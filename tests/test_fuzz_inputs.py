@@ -486,7 +486,17 @@ def _place(doc, f, value):
         doc["source"] = dict(VARIANT.get(f.key, doc["source"]))
         doc["source"][f.key] = value
     elif f.table == "beam":
+        if f.key in ("collection_sr", "collection_NA", "detection_efficiency"):
+            # a probe's keys, on a probe (docs/measurement.md): one collection key
+            doc["beam"][0].update(role="probe", detection_efficiency=0.5)
+            if f.key == "detection_efficiency":
+                doc["beam"][0]["collection_NA"] = 0.2
         doc["beam"][0][f.key] = value
+    elif f.table == "next_stage":  # an aperture comes with its distance
+        stage = doc.setdefault("next_stage", {})
+        if f.key.startswith("aperture"):
+            stage.update(aperture_mm=5.0, aperture_distance_mm=500.0)
+        stage[f.key] = value
     else:
         doc["numerics"][f.key] = value
 
