@@ -15,6 +15,7 @@ import h5py
 import numpy as np
 
 from . import __version__
+from .beam_figures import UNITS as FIGURE_UNITS
 from .outpaths import commit
 from .setup_file import setup_to_toml
 
@@ -108,6 +109,12 @@ def fill_result(f, result, command, measured=None):
         d = r.create_dataset(name, data=np.array(values, dtype=float))
         d.attrs["beams"] = beams
         d.attrs["units"] = unit
+    g = r.create_group("beam_figures")  # per beam (columns of attribute "beams")
+    figures = result.beam_figures()
+    g.attrs["beams"] = list(figures)
+    for k, (scale, unit, _) in FIGURE_UNITS.items():
+        g.create_dataset(k, data=[figures[n].get(k, np.nan) * scale for n in figures]
+                         ).attrs["units"] = unit
     p = f.create_group("profile")
     p.create_dataset("z_mm", data=result.z * 1e3).attrs["units"] = "mm"
     d = p.create_dataset("populations", data=result.profile)

@@ -114,27 +114,25 @@ class RateModel:
 
     def grid(self, per_waist: float) -> np.ndarray:
         """Integration grid with ``per_waist`` steps per projected waist
-        ``w_a/sin(theta)`` inside the beams, coarser between them."""
+        ``w_a/sin(theta)`` inside the beams, coarser between them.
+
+        The range is cut at every beam's extent; each piece is stepped by the
+        narrowest beam present there, so that a narrow beam inside a wide one
+        sets the step only within its own extent.
+        """
         lo, hi = self.z_start, self.z_end
-        spans = sorted((max(s.extent[0], lo), min(s.extent[1], hi),
-                        s.beam.waist / math.sin(s.beam.angle)) for s in self.shapes)
+        spans = [(max(s.extent[0], lo), min(s.extent[1], hi),
+                  s.beam.waist / math.sin(s.beam.angle)) for s in self.shapes]
         spans = [s for s in spans if s[1] > s[0]]
-        merged = []
-        for a, b, w in spans:
-            if merged and a <= merged[-1][1]:
-                pa, pb, pw = merged[-1]
-                merged[-1] = (pa, max(pb, b), min(pw, w))
-            else:
-                merged.append((a, b, w))
-        wmax = max((w for _, _, w in merged), default=(hi - lo) / 8)
-        points, cursor = [lo], lo
-        for a, b, w in merged + [(hi, hi, wmax)]:
-            for start, end, step, cap in ((cursor, a, GAP_COARSENING * wmax, GAP_MAX_STEPS),
-                                          (a, b, w, math.inf)):
-                if end > start:
-                    k = max(1, min(cap, math.ceil((end - start) / step * per_waist)))
-                    points.extend(np.linspace(start, end, k + 1)[1:])
-            cursor = max(cursor, b)
+        wmax = max((w for _, _, w in spans), default=(hi - lo) / 8)
+        cuts = np.unique([lo, hi] + [x for a, b, _ in spans for x in (a, b)])
+        points = [lo]
+        for start, end in zip(cuts[:-1], cuts[1:]):
+            present = [w for a, b, w in spans if a <= start and b >= end]
+            step, cap = ((min(present), math.inf) if present else
+                         (GAP_COARSENING * wmax, GAP_MAX_STEPS))
+            k = max(1, min(cap, math.ceil((end - start) / step * per_waist)))
+            points.extend(np.linspace(start, end, k + 1)[1:])
         return np.unique(np.array(points))
 
     def outputs(self, v, final):

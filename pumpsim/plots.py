@@ -48,17 +48,37 @@ def _save(fig, path):
     fig.savefig(path, dpi=DPI)
 
 
+def _tick_text(v):
+    """``0.2``, ``5``, ``2000``; from 10^4 up (and below 10^-3) a power of ten."""
+    if v <= 0:
+        return ""
+    if 1e-3 <= v < 1e4:
+        return f"{v:g}"
+    e = np.log10(v)
+    if abs(e - round(e)) < 1e-9:
+        return f"$10^{{{int(round(e))}}}$"
+    m = v / 10.0 ** np.floor(e)
+    return f"${m:.2g}\\times10^{{{int(np.floor(e))}}}$"
+
+
 def _plain_log(axis):
-    """Log axis with ticks written 0.2, 1, 5 rather than 2 x 10^-1."""
+    """Log axis with ticks written 0.2, 1, 5 rather than 2 x 10^-1; intermediate
+    (2, 5) ticks are labelled only while the axis spans at most two decades, so
+    that labels never run into each other."""
     from matplotlib.ticker import FuncFormatter, LogLocator
 
-    axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+    def minor(v, _):
+        lo, hi = sorted(axis.get_view_interval())
+        return _tick_text(v) if lo > 0 and hi / lo <= 150 else ""
+
+    axis.set_major_formatter(FuncFormatter(lambda v, _: _tick_text(v)))
     axis.set_minor_locator(LogLocator(subs=(2, 5)))
-    axis.set_minor_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+    axis.set_minor_formatter(FuncFormatter(minor))
 
 
-def _legend_below(ax):
-    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.11), fontsize=7.5, frameon=False)
+def _legend_below(ax, ncol=1):
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.11), fontsize=7.5, frameon=False,
+              ncol=ncol)
 
 
 def _line_text(setup, beam):
@@ -68,34 +88,55 @@ def _line_text(setup, beam):
 
 
 def plot_size(sizing, path):
-    """Power x waist map with the target contour, the least power, the setup and the best waist."""
+    """Power x waist-along map at one waist across, with the target contour and the
+    operating points that share that waist across (others are listed below it)."""
     check_path(path)
     s, setup, beam, F = sizing.search, sizing.setup, sizing.beam, sizing.target_fraction
     b = setup.beam(beam)
     m = sizing.map
-    fig = _figure((8.0, 7.4))
+    fig = _figure((8.0, 7.6))
     ax = fig.add_subplot()
     P, W, T = m["power"] * 1e3, m["waist"] * 1e3, m["fraction"]
+    across = m["across"]
     mesh = ax.pcolormesh(P, W, T, shading="nearest", cmap="viridis")
     fig.colorbar(mesh, ax=ax, label=f"transfer fraction into '{setup.target}'")
     if T.min() < F < T.max():
         cs = ax.contour(P, W, T, levels=[F], colors="white", linestyles="--", linewidths=1.5)
         ax.clabel(cs, fmt={F: f"F = {F:g}"}, fontsize=8)
+    elsewhere = []  # points whose waist across is not the map's: not drawn on it
+
+    def mark(power, waist, waist_across, style, label):
+        if abs(waist_across / across - 1) <= 1e-6:
+            ax.plot(power * 1e3, waist * 1e3, label=label, **style)
+        else:
+            elsewhere.append(f"{label} (waist across {waist_across * 1e3:.3g} mm: not on "
+                             "this map)")
+
+    j = sizing.joint
+    if j is not None:
+        bound = [f"{k} at its {v} bound" for k, v in j.at_bound.items() if v]
+        mark(j.power, j.waist, j.waist_across,
+             dict(marker="*", ls="none", ms=16, mfc="gold", mec="black"),
+             f"least power over waists: {j.power * 1e3:.4g} mW at {j.waist * 1e3:.3g} mm "
+             f"along (re-simulated {j.outcome.transfer_fraction:.4f})"
+             + (f" ({'; '.join(bound)})" if bound else ""))
     if s.reachable and s.power > 0:
-        ax.plot(s.power * 1e3, b.waist * 1e3, "*", ms=15, mfc="gold", mec="black",
-                label=f"least power for F at the setup's waist: {s.power * 1e3:.4g} mW "
-                      f"(re-simulated {s.outcome.transfer_fraction:.4f})")
+        mark(s.power, b.waist, b.waist_across,
+             dict(marker="D", ls="none", ms=8, mfc="orange", mec="black"),
+             f"least power at the setup's waist: {s.power * 1e3:.4g} mW "
+             f"(re-simulated {s.outcome.transfer_fraction:.4f})")
     inside = P[0] <= b.power * 1e3 <= P[-1] and W[0] <= b.waist * 1e3 <= W[-1]
-    ax.plot(b.power * 1e3, b.waist * 1e3, "o", ms=8, mfc="none", mec="red", mew=2,
-            label=f"setup: {b.power * 1e3:.4g} mW, waist {b.waist * 1e3:.3g} mm"
-                  + ("" if inside else " (outside the map)"))
+    mark(b.power, b.waist, b.waist_across,
+         dict(marker="o", ls="none", ms=8, mfc="none", mec="red", mew=2),
+         f"setup: {b.power * 1e3:.4g} mW, waist {b.waist * 1e3:.3g} mm"
+         + ("" if inside else " (outside the map)"))
     w = sizing.waist
-    if w is not None:
-        bound = [f"{k} at its {v} bound" for k, v in w.at_bound.items() if v]
-        ax.plot(w.power * 1e3, w.waist * 1e3, "^", ms=10, mfc="white", mec="black",
-                label=f"best waist at {w.power * 1e3:.4g} mW: {w.waist * 1e3:.3g} mm along, "
-                      f"{w.waist_across * 1e3:.3g} mm across → {w.outcome.transfer_fraction:.4f}"
-                      + (f" ({'; '.join(bound)})" if bound else ""))
+    if w is not None and (j is None or (w.waist, w.waist_across) != (j.waist, j.waist_across)
+                          or w.power != j.power):
+        mark(w.power, w.waist, w.waist_across,
+             dict(marker="^", ls="none", ms=10, mfc="white", mec="black"),
+             f"best waist at {w.power * 1e3:.4g} mW: {w.waist * 1e3:.3g} mm along "
+             f"→ {w.outcome.transfer_fraction:.4f}")
     ax.set_xscale("log")
     ax.set_yscale("log")
     _plain_log(ax.xaxis)
@@ -103,16 +144,17 @@ def plot_size(sizing, path):
     ax.set_xlim(P[0] / 1.15, P[-1] * 1.15)
     ax.set_ylim(W[0] / 1.1, W[-1] * 1.1)
     ax.set_xlabel(f"power of beam '{beam}' per pass (mW)")
-    across = ("waist across = waist along (not set in the setup)"
-              if "waist_across_mm" not in _beam_doc(setup, beam)
-              else f"waist across fixed at {b.waist_across * 1e3:.3g} mm")
     ax.set_ylabel("waist along the atomic beam, 1/e² radius (mm)")
     ax.set_title(f"{setup.scheme.name}: {_line_text(setup, beam)}\n"
-                 f"target '{setup.target}', F = {F:g}; map with {across}", fontsize=9)
-    _legend_below(ax)
-    notes = [f"Ceiling at unlimited power, this transit: {s.ceiling.transfer_fraction:.4f}. "
+                 f"target '{setup.target}', F = {F:g}; every point of the map and every "
+                 f"marker with waist across {across * 1e3:.4g} mm", fontsize=9)
+    if ax.get_legend_handles_labels()[0]:
+        _legend_below(ax)
+    notes = [f"Ceiling at unlimited power, the setup's waist and transit: "
+             f"{s.ceiling.transfer_fraction:.4f} (a limit, not a proposed power). "
              f"Branching limit at unlimited power and time: {sizing.limit.fraction:.4f}."]
-    if not s.reachable:
+    notes += ["Also: " + e for e in elsewhere]
+    if not s.reachable and j is None:
         notes.insert(0, f"F = {F:g} is NOT REACHABLE: {sizing.reason}")
     if sizing.unconverged:
         notes.append(f"WARNING: {sizing.unconverged} of {sizing.simulations} simulations missed "
@@ -121,11 +163,11 @@ def plot_size(sizing, path):
     _save(fig, path)
 
 
-def _beam_doc(setup, beam):
-    return next(b for b in setup.document.get("beam", []) if b.get("name") == beam)
+LINE_STYLES = ("-", "--", "-.", ":")
+MARKERS = ("o", "s", "^", "D", "v", "P")
 
 
-def plot_compare(setup, routes, F, curves, path):
+def plot_compare(setup, routes, F, curves, path, rank_by="power"):
     """Transfer fraction against power for each route, the target line and each least power.
 
     Parameters
@@ -137,26 +179,35 @@ def plot_compare(setup, routes, F, curves, path):
     curves : dict
         Upper level -> ``(powers W, fractions)``, sorted by power.
     path : str or Path
+    rank_by : str
+        How the routes were ranked (a key of :data:`pumpsim.routes.RANK_BY`).
     """
     check_path(path)
-    from .routes import all_cautions
+    from .routes import RANK_BY, all_cautions
 
     fig = _figure((8.0, 7.0))
     ax = fig.add_subplot()
     beam = routes[0].beam
+    n = len(routes)
     for rank, r in enumerate(routes, 1):
         p, t = curves[r.upper]
         s = r.search
         tail = (f"{s.power * 1e3:.4g} mW for F" if s.reachable
                 else f"F out of reach (ceiling {s.ceiling.transfer_fraction:.3f})")
-        (ln,) = ax.plot(np.asarray(p) * 1e3, t, "-", lw=1.5,
+        # lower ranks drawn on top, thinner, each with its own dash and marker, so
+        # that curves and dots that coincide still show
+        style = dict(ls=LINE_STYLES[(rank - 1) % len(LINE_STYLES)],
+                     marker=MARKERS[(rank - 1) % len(MARKERS)], zorder=2 + rank)
+        (ln,) = ax.plot(np.asarray(p) * 1e3, t, lw=1.2 + 1.6 * (n - rank) / max(n - 1, 1),
+                        ms=3, **style,
                         label=f"{rank}. {r.lower} → {r.upper}, {r.wavelength * 1e9:.1f} nm, "
                               f"to target {r.branching_target:.2f}, to other "
                               f"{r.branching_other:.2f}: {tail}")
         if s.reachable and s.power > 0:
-            ax.plot(s.power * 1e3, s.outcome.transfer_fraction, "o", color=ln.get_color(),
-                    mec="black")
-    ax.axhline(F, color="black", ls="--", lw=1)
+            ax.plot(s.power * 1e3, s.outcome.transfer_fraction, ls="none",
+                    marker=style["marker"], ms=6 + 5 * (n - rank) / max(n - 1, 1),
+                    color=ln.get_color(), mec="black", zorder=20 + rank)
+    ax.axhline(F, color="0.35", ls="--", lw=1, zorder=1)
     ax.annotate(f"target F = {F:g}", (0.01, F), xycoords=("axes fraction", "data"),
                 va="bottom", fontsize=8)
     ax.set_xscale("log")
@@ -164,13 +215,42 @@ def plot_compare(setup, routes, F, curves, path):
     ax.set_ylabel(f"transfer fraction into '{setup.target}'")
     ax.set_title(f"{setup.scheme.name}: pump routes out of '{routes[0].lower}' for beam "
                  f"'{beam}', ranked best first\n"
-                 "dots: least power for F (re-simulated); right end of each curve: ceiling "
-                 "at unlimited power", fontsize=9)
+                 "large markers: least power for F (re-simulated)\nright end of each curve: "
+                 "ceiling at unlimited power (a limit, not a proposed power)", fontsize=9)
     _plain_log(ax.xaxis)
     _legend_below(ax)
     ax.grid(True, which="both", alpha=0.3)
-    _footer(fig, ["Ranking: routes reaching F first, by least power; then by ceiling."],
+    _footer(fig, [f"Ranking: routes reaching F first, by {RANK_BY[rank_by]}; then by ceiling."],
             all_cautions(routes))
+    _save(fig, path)
+
+
+def plot_profile(result, path, cautions=()):
+    """Ensemble-mean populations of every level along z, with each beam's 1/e² extent."""
+    check_path(path)
+    setup = result.setup
+    fig = _figure((8.0, 5.8))
+    ax = fig.add_subplot()
+    z = result.z * 1e3
+    for j, lid in enumerate(result.levels):
+        ax.plot(z, result.profile[:, j], lw=2.2 if lid == setup.target else 1.3,
+                ls="-" if j < 10 else "--",
+                label=f"{lid} (target)" if lid == setup.target else lid)
+    for b in setup.beams:
+        half = b.waist / np.sin(b.angle) * 1e3
+        ax.axvspan(b.position * 1e3 - half, b.position * 1e3 + half, color="0.5", alpha=0.12)
+        ax.annotate(f"{b.name}: {b.lower} → {b.upper}, {b.power * 1e3:.4g} mW",
+                    (b.position * 1e3, 1.0), xycoords=("data", "axes fraction"), ha="center",
+                    va="bottom", fontsize=7.5)
+    ax.set_xlabel("position along the atomic beam z (mm)")
+    ax.set_ylabel("population (ensemble mean)")
+    ax.set_ylim(-0.02, 1.02)
+    ax.grid(True, alpha=0.3)
+    ax.set_title(f"{setup.scheme.name}: {Path(setup.path or 'setup').name}; transfer into "
+                 f"'{setup.target}' {result.transfer_fraction:.4f}\n", fontsize=9)
+    _legend_below(ax, ncol=min(len(result.levels), 6))
+    _footer(fig, ["Shaded: each beam's 1/e² intensity half-width either side of its centre."],
+            cautions)
     _save(fig, path)
 
 

@@ -41,6 +41,13 @@ class NumericsReport:
         Where speed refinement stopped because the panels there could not be
         narrowed further (atoms near rest whose mean photons or deflection
         diverge); ``None`` when it did not. Left out of ``to_dict`` when ``None``.
+    limited_by : str or None
+        Why an unconverged run stopped: ``"max_nodes"``, ``"rules"`` (the angle or
+        offset ladder's largest rule), ``"speed"`` or ``"grid"``; ``None`` when
+        converged. Left out of ``to_dict`` when ``None``.
+    coherence : dict or None
+        The density-matrix check of the rate equations (docs/coherent.md);
+        ``None`` when switched off. Left out of ``to_dict`` when ``None``.
     """
 
     solver: str
@@ -57,6 +64,8 @@ class NumericsReport:
     conservation_error: float
     seconds: float
     unresolved_speed_m_s: float = None
+    limited_by: str = None
+    coherence: dict = None
 
     def to_dict(self):
         return {k: v for k, v in self.__dict__.items() if v is not None}
@@ -64,14 +73,17 @@ class NumericsReport:
     def warnings(self):
         """Plain-words reasons the numbers are not converged, and by how much
         (an empty list when they are)."""
+        out = [self.coherence["warning"]] if self.coherence and "warning" in self.coherence else []
         if self.converged:
-            return []
-        out = []
+            return out
         e = self.error_estimate
         parts = (f"ode {e['ode']:.1e}, angle/offset {e['angle_offset']:.1e}, "
                  f"speed {e['speed']:.1e}")
-        hint = ("the grid along z reached its finest spacing" if e["ode"] >= e["speed"]
+        hint = ("the grid along z reached its finest spacing" if self.limited_by == "grid"
+                or self.limited_by is None and e["ode"] >= e["speed"]
                 and e["ode"] >= e["angle_offset"] else
+                "the angle or offset rules reached their largest size; loosen "
+                "numerics.tolerance" if self.limited_by == "rules" else
                 f"raise numerics.max_nodes (now {self.nodes_evaluated} nodes evaluated) or "
                 "loosen numerics.tolerance")
         if self.unresolved_speed_m_s is not None:
@@ -145,8 +157,19 @@ class Result:
                            "power_mW": b.power * 1e3}
         return out
 
+    def beam_figures(self):
+        """Per beam: transit time and width, Doppler width from the divergence, line
+        width, peak pumping rate, recoil velocity and the ensemble's recoil heating
+        (SI units; :mod:`pumpsim.beam_figures`). With several beams, ``"all beams"``
+        holds the combined heating."""
+        from .beam_figures import beam_figures
+
+        return beam_figures(self.setup, self.nodes, len(self.levels))
+
     def to_dict(self):
         """The JSON object of ``pumpsim run --json`` (file units)."""
+        from .beam_figures import in_file_units
+
         out = {
             "target": self.setup.target,
             "transfer_fraction": self.transfer_fraction,
@@ -154,6 +177,7 @@ class Result:
             "photons_per_atom": dict(self.photons_per_atom),
             "deflection_mrad": {k: v * 1e3 for k, v in self.deflection.items()},
             "beams": self.beam_summary(),
+            "beam_figures": in_file_units(self.beam_figures()),
             "numerics": self.numerics.to_dict(),
         }
         if self.sublevels is not None:  # sublevel mode (docs/sublevel.md)

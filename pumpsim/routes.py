@@ -8,9 +8,17 @@ all routes' searches run in lockstep, so their simulations share the executor.
 Ranking (best first), the key of :func:`rank_key`:
 
 1. routes that reach the target fraction before those that do not;
-2. among those that do, the least power first (cheaper, and safer to work
-   with), then the higher ceiling, then fewer photons per atom (less heating
-   and deflection of the atomic beam);
+2. among those that do, by the chosen criterion (:data:`RANK_BY`):
+
+   - ``power`` (default): the least power first (cheaper, and safer to work
+     with), then the higher ceiling, then fewer photons per atom;
+   - ``photons``: fewest photons per atom at the least power first (less
+     recoil heating of the atomic beam), then the least power;
+   - ``deflection``: the smallest mean deflection at the least power first,
+     then fewer photons, then the least power;
+   - ``visible``: lines that are not ultraviolet first (visible light is seen,
+     and ultraviolet optics, fibres and eyewear are harder), then the least power;
+
 3. among those that do not, the higher ceiling first, then the higher
    branching limit.
 """
@@ -23,7 +31,7 @@ from .batch import Batcher
 from .errors import InputError
 from .limits import branching_limit
 from .lines import line
-from .safety import GENERAL
+from .safety import GENERAL, VISIBLE
 from .sizing import TYPICAL_SEARCH, check_request, least_power_search, shown_cautions
 
 
@@ -80,13 +88,23 @@ class Route:
         }
 
 
-def rank_key(route):
-    """Sort key, best first (module docstring)."""
+RANK_BY = {"power": "least power", "photons": "fewest photons per atom",
+           "deflection": "smallest deflection", "visible": "wavelength (ultraviolet last), then least power"}
+
+
+def rank_key(route, by="power"):
+    """Sort key, best first (module docstring); ``by`` is a key of :data:`RANK_BY`."""
     s = route.search
-    if s.reachable:
-        return (0, s.power, -s.ceiling.transfer_fraction,
-                s.outcome.photons_per_atom[route.beam])
-    return (1, -s.ceiling.transfer_fraction, -route.limit.fraction, 0.0)
+    if not s.reachable:
+        return (1, -s.ceiling.transfer_fraction, -route.limit.fraction, 0.0, 0.0)
+    photons = s.outcome.photons_per_atom[route.beam]
+    if by == "photons":
+        return (0, photons, s.power, 0.0, 0.0)
+    if by == "deflection":
+        return (0, abs(s.outcome.deflection[route.beam]), photons, s.power, 0.0)
+    if by == "visible":
+        return (0, int(route.wavelength < VISIBLE[0]), s.power, photons, 0.0)
+    return (0, s.power, -s.ceiling.transfer_fraction, photons, 0.0)
 
 
 def candidates(setup, beam):
@@ -102,7 +120,7 @@ def route_setup(setup, beam, upper):
     return setup.with_value(f"beam.{beam}.transition", [setup.beam(beam).lower, upper])
 
 
-def compare(setup, beam, F, executor=None, routes=None, progress=None) -> list:
+def compare(setup, beam, F, executor=None, routes=None, progress=None, rank_by="power") -> list:
     """Size every route of ``beam`` for transfer fraction ``F`` and rank them.
 
     Parameters
@@ -115,6 +133,8 @@ def compare(setup, beam, F, executor=None, routes=None, progress=None) -> list:
     routes : sequence of str, optional
         Upper levels to compare (default: all candidates).
     progress : Progress, optional
+    rank_by : str
+        A key of :data:`RANK_BY`.
 
     Returns
     -------
@@ -122,6 +142,9 @@ def compare(setup, beam, F, executor=None, routes=None, progress=None) -> list:
         Best first.
     """
     check_request(setup, beam, F)
+    if rank_by not in RANK_BY:
+        raise InputError(f"rank by one of {', '.join(RANK_BY)}, got {rank_by!r}", setup.path,
+                         "--rank-by")
     every = candidates(setup, beam)
     lower = setup.beam(beam).lower
     chosen = tuple(routes) if routes else every
@@ -144,8 +167,9 @@ def compare(setup, beam, F, executor=None, routes=None, progress=None) -> list:
         out.append(Route(beam, lower, up, ln.wavelength, ln.sigma0(b.linewidth),
                          (to_target.rate / G) if to_target else 0.0,
                          scheme.unlisted_rate(up) / G, s, branching_limit(v),
-                         shown_cautions(v, beam, [s.power, s.ceiling_power])))
-    return sorted(out, key=rank_key)
+                         # the ceiling's power is a numerical limit, not a proposal
+                         shown_cautions(v, beam, [s.power])))
+    return sorted(out, key=lambda r: rank_key(r, rank_by))
 
 
 def all_cautions(routes):

@@ -182,6 +182,9 @@ BEAM_FIELDS = (
     _f("beam", "detection_efficiency", "detection_efficiency", "", 1.0, None,
        "probe detection efficiency (optics and detector)", low=0.0, high=1.0, low_open=True,
        span=(0.001, 1.0), log=True),
+    # density-matrix model (docs/coherent.md); the rate equations ignore it
+    _f("beam", "phase_group", "phase_group", "", 1, None,
+       "phase-related group (sidebands of one laser)", kind=str),
 )
 
 MODE_FIELDS = (
@@ -202,6 +205,13 @@ NUMERICS_FIELDS = (
        choices=("exponential", "radau", "rosenbrock")),
     _f("numerics", "max_nodes", "max_nodes", "", 1, 200000,
        "largest ensemble the quadrature may use", kind=int, low=1, high=100_000_000),
+    # density-matrix model and the check of every run against it (docs/coherent.md)
+    _f("numerics", "equations", "equations", "", 1, "rates",
+       "model: rate equations or density matrix", kind=str,
+       choices=("rates", "density_matrix")),
+    _f("numerics", "coherence_check", "coherence_check", "", 1, "on",
+       "compare with the density-matrix model on a few atoms", kind=str,
+       choices=("on", "off")),
 )
 
 # measurement (docs/measurement.md): what the next stage (a trap, a slower) accepts

@@ -78,6 +78,9 @@ class Beam:
     collection_sr, collection_NA, detection_efficiency : float or None
         A probe's collection (solid angle, sr, or numerical aperture) and
         detection efficiency (docs/measurement.md).
+    phase_group : str or None
+        Beams sharing a group are phase-related (sidebands of one laser): the
+        density-matrix model keeps their Raman coherences (docs/coherent.md).
     """
 
     name: str
@@ -97,6 +100,7 @@ class Beam:
     collection_sr: float | None = None
     collection_NA: float | None = None
     detection_efficiency: float | None = None
+    phase_group: str | None = None
 
 
 @dataclass(frozen=True)
@@ -131,6 +135,11 @@ class Numerics:
         sublevel bases) or ``"radau"`` (per-node reference).
     max_nodes : int
         Largest ensemble the adaptive quadrature may build.
+    equations : str
+        ``"rates"`` (default) or ``"density_matrix"`` (docs/coherent.md).
+    coherence_check : str
+        ``"on"``: every rate-equation run is compared with the density-matrix
+        model on a few atoms; ``"off"`` skips that.
     """
 
     start: float | None = None
@@ -138,6 +147,8 @@ class Numerics:
     tolerance: float = 1e-4
     solver: str = "exponential"
     max_nodes: int = 200000
+    equations: str = "rates"
+    coherence_check: str = "on"
 
 
 @dataclass(frozen=True)

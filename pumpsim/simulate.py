@@ -3,6 +3,7 @@
 import numpy as np
 
 from .basis import SublevelBasis
+from .coherent import CoherentModel, CoherentPropagator, coherence_check
 from .cost import check_cost
 from .ensemble import EnsembleIntegrator
 from .errors import NumericalError
@@ -42,6 +43,9 @@ def simulate(setup, basis=None, progress=None) -> Result:
     model = (SparseRateModel if solver == "rosenbrock" else RateModel)(setup, basis)
     num = setup.numerics
     propagator = make_propagator(num, solver)
+    if num.equations == "density_matrix":  # docs/coherent.md
+        solver, propagator = CoherentPropagator.name, CoherentPropagator()
+        model = CoherentModel(setup, model.basis)
     check_cost(model, propagator, progress)  # refuse what cannot fit; announce a long run
     ens = EnsembleIntegrator(model, propagator, num.tolerance, num.max_nodes, progress).run()
     levels = setup.scheme.ids + ("other",)
@@ -58,7 +62,8 @@ def simulate(setup, basis=None, progress=None) -> Result:
         error_estimate=ens.errors,
         converged=bool(ens.converged and conservation <= CONSERVATION_LIMIT),
         conservation_error=conservation, seconds=ens.seconds,
-        unresolved_speed_m_s=ens.rules["unresolved_speed"])
+        unresolved_speed_m_s=ens.rules["unresolved_speed"], limited_by=ens.rules["limited_by"],
+        coherence=coherence_check(setup, model, propagator, ens.z))
     final = {lid: float(p) for lid, p in zip(levels, pops)}
     sublevels = None
     if isinstance(model.basis, SublevelBasis):

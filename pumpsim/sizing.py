@@ -20,8 +20,13 @@ run through a :class:`~pumpsim.batch.Batcher`; the searches are generators
 - **Branching limit** (unlimited power and time): :mod:`pumpsim.limits`.
 - **Best waist** at a given power: compass search in log waist (along and
   across the atomic beam) within bounds, from the best point of a coarse
-  grid; a step is halved when no neighbour is better. It ends with both
+  grid (simulated at a looser tolerance: it only picks the start); a step is halved when no neighbour is better. It ends with both
   neighbours on each axis no better, or at a bound, which it reports.
+- **Least power over waists**: :class:`JointOptimum`.
+- **Order of work** (:func:`size`): the answers that cost nothing or little
+  first, each reported as soon as known, then what the rest will cost, then
+  the waist searches and the map; a target out of reach at any waist within
+  the bounds runs no waist search.
 """
 
 import math
@@ -34,6 +39,7 @@ from .beam_shapes import shape_of
 from .errors import InputError
 from .limits import branching_limit
 from .lines import line
+from .progress import clock
 from .safety import GENERAL, cautions
 
 CEILING_SATURATION = 1e4  # peak saturation parameter standing in for "unlimited power"
@@ -42,7 +48,14 @@ POWER_RTOL = 1e-3  # ... after the bracket is this narrow, or T is within tol/4 
 MAX_STEPS = 40
 WAIST_GRID = 5  # coarse grid per waist axis
 WAIST_RTOL = 0.02  # compass search stops at 2 % steps
-WAIST_SPAN = 5.0  # default bounds: current waist / 5 .. * 5
+# The coarse grid only picks where the compass search starts, so it runs at a looser
+# tolerance (10 x, at most 1e-2): its narrow-waist corners cost the ensemble
+# quadrature tens of times a simulation at the setup's waist.
+GRID_TOLERANCE_FACTOR, GRID_TOLERANCE_CAP = 10.0, 1e-2
+WAIST_SPAN = 3.0  # default bounds: current waist / 3 .. * 3 (see default_bounds)
+JOINT_RTOL = 0.01  # joint optimum: stop when a round lowers the power by less than 1 %
+JOINT_ROUNDS = 4
+WARM_STEP = math.log(1.25)  # warm-started waist searches begin with 25 % steps
 MAP_POWER_SPAN = 10.0  # default map: least power / 10 .. * 10
 MAX_ROUNDS = 60
 TYPICAL_SEARCH = 10  # simulations a least-power search usually needs (for progress only)
@@ -120,9 +133,11 @@ class PowerSearch:
         return self.power is not None
 
 
-def least_power_search(setup, beam, F):
+def least_power_search(setup, beam, F, on_ceiling=None):
     """Search generator (see :mod:`pumpsim.batch`) for the least power of ``beam``
-    that gives transfer fraction ``F``; returns a :class:`PowerSearch`."""
+    that gives transfer fraction ``F``; returns a :class:`PowerSearch`.
+    ``on_ceiling(ceiling_outcome, ceiling_power)`` is called as soon as the ceiling
+    is known (its first step), before the search goes on."""
     tol = setup.numerics.tolerance
     pc = ceiling_power(setup, beam)
     p0 = setup.beam(beam).power
@@ -135,6 +150,8 @@ def least_power_search(setup, beam, F):
         return outs
 
     ceil, zero, _ = yield from look([pc, 0.0, p0])
+    if on_ceiling is not None:
+        on_ceiling(ceil, pc)
 
     def done(power, outcome):
         return PowerSearch(power, outcome, pc, ceil, zero,
@@ -230,31 +247,41 @@ class WaistSearch:
     flat: bool
 
 
-def best_waist_search(setup, beam, power, along, across, grid=WAIST_GRID):
+def best_waist_search(setup, beam, power, along, across, grid=WAIST_GRID, start=None):
     """Search generator for the waists (m) of ``beam`` giving the largest transfer
     fraction at ``power`` (W), within ``along`` and ``across`` = ``(low, high)``;
-    returns a :class:`WaistSearch`."""
+    returns a :class:`WaistSearch`. ``start`` = ``(along, across)`` skips the
+    coarse grid and begins the compass search there with :data:`WARM_STEP` steps."""
     base = with_power(setup, beam, power)
+    tol = setup.numerics.tolerance
+    rough_base = base.with_value("numerics.tolerance", max(tol, min(GRID_TOLERANCE_FACTOR * tol,
+                                                                     GRID_TOLERANCE_CAP)))
     lo, hi = np.log([along[0], across[0]]), np.log([along[1], across[1]])
-    seen = {}
+    seen, rough = {}, {}
 
     def key(x):
         return tuple(round(float(v), 12) for v in x)
 
-    def look(points):
+    def look(points, table=seen, src=base):
         points = [key(x) for x in points]
-        new = [x for x in dict.fromkeys(points) if x not in seen]
-        outs = yield from ask(with_waists(base, beam, math.exp(x[0]), math.exp(x[1])) for x in new)
-        seen.update(zip(new, outs))
+        new = [x for x in dict.fromkeys(points) if x not in table]
+        outs = yield from ask(with_waists(src, beam, math.exp(x[0]), math.exp(x[1])) for x in new)
+        table.update(zip(new, outs))
         return points
 
     def T(x):
         return seen[x].transfer_fraction
 
-    axes = [np.linspace(lo[d], hi[d], grid) if hi[d] > lo[d] else lo[d:d + 1] for d in range(2)]
-    coarse = yield from look([(x, y) for x in axes[0] for y in axes[1]])
-    centre = max(coarse, key=T)  # first of equals: deterministic
-    step = np.array([(hi[d] - lo[d]) / (grid - 1) for d in range(2)])
+    if start is None:
+        axes = [np.linspace(lo[d], hi[d], grid) if hi[d] > lo[d] else lo[d:d + 1]
+                for d in range(2)]
+        coarse = yield from look([(x, y) for x in axes[0] for y in axes[1]], rough, rough_base)
+        # first of equals: deterministic; then at the setup's own tolerance
+        (centre,) = yield from look([max(coarse, key=lambda x: rough[x].transfer_fraction)])
+        step = np.array([(hi[d] - lo[d]) / (grid - 1) for d in range(2)])
+    else:
+        (centre,) = yield from look([np.clip(np.log(start), lo, hi)])
+        step = np.where(hi > lo, WARM_STEP, 0.0)
     smallest = math.log1p(WAIST_RTOL)
     for _ in range(MAX_ROUNDS):
         moves = [np.clip(np.array(centre) + sign * step * unit, lo, hi)
@@ -268,7 +295,6 @@ def best_waist_search(setup, beam, power, along, across, grid=WAIST_GRID):
         if (step <= smallest).all():
             break
         step = step / 2
-    tol = setup.numerics.tolerance
     at_bound = {}
     for d, name in enumerate(("along", "across")):
         at_bound[name] = (None if hi[d] == lo[d] else "lower" if centre[d] <= lo[d] + 1e-12
@@ -279,13 +305,84 @@ def best_waist_search(setup, beam, power, along, across, grid=WAIST_GRID):
                        all(abs(T(x) - T(centre)) <= tol for x in nbrs))
 
 
+# -- least power over waists ----------------------------------------------------
+
+@dataclass(frozen=True)
+class JointOptimum:
+    """Least power over waists within bounds, and the waists it needs (SI units).
+
+    Found by alternating the two one-dimensional answers: the best waists at the
+    current least power, then the least power at those waists. Each round can
+    only lower the power (the new waists reach ``F`` at the old power), and at
+    the joint optimum the best waists at the least power are the waists
+    themselves, so the alternation stops there; it stops earlier when a round
+    gains less than :data:`JOINT_RTOL`.
+
+    Parameters
+    ----------
+    power : float
+    waist, waist_across : float
+    outcome : Outcome
+        The confirming simulation at ``power`` and those waists.
+    at_bound : dict
+        ``"along"`` and ``"across"`` -> ``"lower"``, ``"upper"`` or ``None``.
+    rounds : tuple
+        ``(power, waist, waist_across)`` after each round, the start first.
+    first_waist : WaistSearch
+        The best waists at the starting least power (the first round).
+    """
+
+    power: float
+    waist: float
+    waist_across: float
+    outcome: object
+    at_bound: dict
+    rounds: tuple
+    first_waist: object
+
+
+def _at_bound(value, bounds):
+    lo, hi = bounds
+    if hi <= lo:
+        return None
+    return "lower" if value <= lo * (1 + 1e-9) else "upper" if value >= hi * (1 - 1e-9) else None
+
+
+def joint_search(setup, beam, F, along, across, first):
+    """Search generator for the least power of ``beam`` over waists within ``along``
+    and ``across`` (m); ``first`` is the :class:`PowerSearch` at the setup's own
+    waists (reachable, positive power). Returns a :class:`JointOptimum`."""
+    b = setup.beam(beam)
+    p, wa, wc, outcome = first.power, b.waist, b.waist_across, first.outcome
+    rounds, start, first_waist = [(p, wa, wc)], None, None
+    tol = setup.numerics.tolerance
+    for _ in range(JOINT_ROUNDS):
+        ws = yield from best_waist_search(setup, beam, p, along, across, start=start)
+        first_waist = first_waist or ws
+        start = (ws.waist, ws.waist_across)
+        if ws.outcome.transfer_fraction <= outcome.transfer_fraction + tol:
+            break  # no waist does better at this power: p is already least
+        moved = with_waists(with_power(setup, beam, p), beam, ws.waist, ws.waist_across)
+        ps = yield from least_power_search(moved, beam, F)
+        if not ps.reachable or ps.power >= p:
+            break
+        gained = ps.power < p * (1 - JOINT_RTOL)
+        p, wa, wc, outcome = ps.power, ws.waist, ws.waist_across, ps.outcome
+        rounds.append((p, wa, wc))
+        if not gained:
+            break
+    return JointOptimum(p, wa, wc, outcome,
+                        {"along": _at_bound(wa, along), "across": _at_bound(wc, across)},
+                        tuple(rounds), first_waist)
+
+
 # -- power x waist map ---------------------------------------------------------
 
-def map_search(setup, beam, powers, waists):
+def map_search(setup, beam, powers, waists, across):
     """Search generator: transfer fraction on a grid of powers (W) and waists
-    along (m); returns an array of shape ``(len(waists), len(powers))``.
-    ``waist_across_mm`` stays as set, or follows the waist if the setup leaves it out."""
-    outs = yield from ask(with_power(setup, beam, p).with_value(f"beam.{beam}.waist_mm", w * 1e3)
+    along (m), the waist across held at ``across`` (m); returns an array of
+    shape ``(len(waists), len(powers))``."""
+    outs = yield from ask(with_waists(with_power(setup, beam, p), beam, w, across)
                           for w in waists for p in powers)
     return np.array([o.transfer_fraction for o in outs]).reshape(len(waists), len(powers))
 
@@ -302,11 +399,17 @@ class Sizing:
     beam : str
     target_fraction : float
     search : PowerSearch
+        At the setup's own waists.
     limit : BranchingLimit
     waist : WaistSearch or None
-        ``None`` when there was no positive power to size the waist at.
+        Best waists at ``--power`` or the least power; ``None`` when there was no
+        positive power to size the waist at, or no waist search.
+    joint : JointOptimum or None
+        Least power over waists within bounds; ``None`` when out of reach, or
+        without a waist search.
     map : dict or None
-        ``power`` (W), ``waist`` (m) and ``fraction`` (rows: waists, columns: powers).
+        ``power`` (W), ``waist`` (m, along), ``across`` (m, the waist across of
+        every point) and ``fraction`` (rows: waists, columns: powers).
     limited_by : str or None
         ``"branching"`` or ``"transit"`` when the target is out of reach.
     reason : str or None
@@ -315,6 +418,8 @@ class Sizing:
     unconverged : int
         How many of them missed the numerical tolerance.
     cautions : list of str
+    bounds : tuple
+        ``((along_low, along_high), (across_low, across_high))``, m.
     """
 
     setup: object
@@ -323,21 +428,24 @@ class Sizing:
     search: PowerSearch
     limit: object
     waist: WaistSearch | None
+    joint: JointOptimum | None
     map: dict | None
     limited_by: str | None
     reason: str | None
     simulations: int
     unconverged: int
     cautions: list
+    bounds: tuple
 
     def to_dict(self):
         """The ``size --json`` object."""
-        s, w, b = self.search, self.waist, self.setup.beam(self.beam)
+        s, w, j, b = self.search, self.waist, self.joint, self.setup.beam(self.beam)
         out = {
             "beam": self.beam, "target": self.setup.target,
             "target_fraction": self.target_fraction,
             "power_mW": None if s.power is None else s.power * 1e3,
-            "reachable": s.reachable,
+            "reachable": s.reachable or j is not None,
+            "reachable_at_setup_waist": s.reachable,
             "confirmed_fraction": None if s.outcome is None else s.outcome.transfer_fraction,
             "ceiling": s.ceiling.transfer_fraction,
             "ceiling_power_mW": s.ceiling_power * 1e3,
@@ -345,12 +453,20 @@ class Sizing:
             "branching_final_populations": dict(self.limit.final),
             "limited_by": self.limited_by, "reason": self.reason,
             "waist_mm": b.waist * 1e3, "waist_across_mm": b.waist_across * 1e3,
+            "joint_power_mW": None if j is None else j.power * 1e3,
+            "joint_waist_mm": None if j is None else j.waist * 1e3,
+            "joint_waist_across_mm": None if j is None else j.waist_across * 1e3,
+            "joint_fraction": None if j is None else j.outcome.transfer_fraction,
+            "joint_at_bound": None if j is None else dict(j.at_bound),
+            "joint_rounds": None if j is None else [
+                {"power_mW": p * 1e3, "waist_mm": a * 1e3, "waist_across_mm": c * 1e3}
+                for p, a, c in j.rounds],
             "best_waist_mm": None if w is None else w.waist * 1e3,
             "best_waist_across_mm": None if w is None else w.waist_across * 1e3,
             "best_waist_fraction": None if w is None else w.outcome.transfer_fraction,
             "best_waist_power_mW": None if w is None else w.power * 1e3,
             "best_waist_at_bound": None if w is None else dict(w.at_bound),
-            "best_waist_bounds_mm": None if w is None else [[x * 1e3 for x in r] for r in w.bounds],
+            "waist_bounds_mm": [[x * 1e3 for x in r] for r in self.bounds],
             "simulations": self.simulations,
             "unconverged_simulations": self.unconverged,
             "cautions": list(self.cautions),
@@ -361,6 +477,7 @@ class Sizing:
         if self.map is not None:
             out["map"] = {"power_mW": [p * 1e3 for p in self.map["power"]],
                           "waist_mm": [x * 1e3 for x in self.map["waist"]],
+                          "waist_across_mm": self.map["across"] * 1e3,
                           "transfer_fraction": self.map["fraction"].tolist()}
         return out
 
@@ -404,13 +521,30 @@ def explain(setup, beam, F, search, limit):
                        "slower atoms or more passes would help.")
 
 
-def _bounds(value, given, name):
-    lo, hi = given if given is not None else (value / WAIST_SPAN, value * WAIST_SPAN)
+def default_bounds(setup, beam):
+    """Default waist bounds (m): ``((along_low, along_high), (across_low, across_high))``.
+
+    Each waist within a factor :data:`WAIST_SPAN` of the setup's. Across, never
+    below the atomic beam's rms width (when that is below the setup's own waist
+    across): a narrower beam leaves most atoms in its dim wings, so it cannot
+    be the least power, while such points cost the ensemble quadrature many
+    more offset nodes (tens of times the simulation time).
+    """
+    b = setup.beam(beam)
+    width = setup.source.width_rms
+    across_low = b.waist_across / WAIST_SPAN
+    if width > across_low:
+        across_low = min(width, b.waist_across)
+    return ((b.waist / WAIST_SPAN, b.waist * WAIST_SPAN),
+            (across_low, b.waist_across * WAIST_SPAN))
+
+
+def _bounds(given, default, name, file):
+    lo, hi = given if given is not None else default
     if not (lo > 0 and hi >= lo):
         raise InputError(f"bounds must be 0 < MIN <= MAX, got {lo * 1e3:g}:{hi * 1e3:g} mm",
-                         table=name)
+                         file, name)
     return (lo, hi)
-
 
 
 def check_request(setup, beam, F):
@@ -429,9 +563,60 @@ def check_request(setup, beam, F):
         raise InputError(f"the target fraction must lie between 0 and 1, got {F!r}",
                          setup.path, "--target-fraction")
 
+def _with_point(values, x):
+    """Sorted ``values`` holding ``x``: it replaces a value within 1e-6 of it (a bound
+    the search reached, up to rounding) or is inserted."""
+    values = np.array(values, dtype=float)
+    near = np.abs(values / x - 1) <= 1e-6
+    if near.any():
+        values[np.argmax(near)] = x
+        return values
+    return np.sort(np.append(values, x))
+
+
+def plan_counts(axes, map_points, joint=True):
+    """Typical simulations of each stage still to come: ``(serial, parallel)`` counts,
+    the first run one batch at a time, the second spread over the workers."""
+    serial = TYPICAL_SEARCH
+    parallel = map_points**2
+    if joint and axes:
+        serial += 2 * (4 * 6) + 2 * TYPICAL_SEARCH  # compass rounds and re-sized powers
+        parallel += WAIST_GRID**axes
+    return serial, parallel
+
+
+def cost_text(seconds_each, workers, axes, map_points, joint, tolerance):
+    """What the rest of a ``size`` run will cost, and how to make it cheaper."""
+    serial, parallel = plan_counts(axes, map_points, joint)
+    parts = []
+    if joint and axes:
+        parts.append(f"least power over waists (~{serial - TYPICAL_SEARCH + WAIST_GRID**axes} "
+                     "simulations)")
+    if map_points:
+        parts.append(f"the {map_points} x {map_points} map ({map_points**2})")
+    if not parts:
+        return None
+    total = seconds_each * (serial + parallel / max(workers, 1))
+    cheaper = []
+    if map_points:
+        cheaper.append("--map 0 (no map) or a smaller --map N")
+    if joint and axes:
+        cheaper += ["--no-waist-search (least power at this waist only)",
+                    "narrower --waist-range / --waist-across-range"]
+    cheaper.append(f"a looser tolerance (--set numerics.tolerance={10 * tolerance:g})")
+    return (f"next: {' and '.join(parts)}; about {clock(total)} at {seconds_each:.2g} s a "
+            f"simulation on {workers} worker{'s' if workers != 1 else ''} (narrow waists "
+            f"cost more). Cheaper: {'; '.join(cheaper)}.")
+
+
 def size(setup, beam, F, executor=None, power=None, along=None, across=None,
-         map_points=10, power_range=None, progress=None) -> Sizing:
+         map_points=10, power_range=None, progress=None, report=None, waists=True) -> Sizing:
     """Size one beam of a setup for transfer fraction ``F``.
+
+    The answers that cost nothing or little come first and are passed to
+    ``report`` as soon as they are known (branching limit, ceiling, least power at
+    the setup's waist, then what the rest will cost), so that stopping a long run
+    loses nothing already found.
 
     Parameters
     ----------
@@ -446,14 +631,17 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
         Power (W) for the best-waist search; default the least power (or the
         setup's power when the target is out of reach).
     along, across : tuple, optional
-        ``(low, high)`` bounds (m) on the waists; default the current waist
-        divided and multiplied by :data:`WAIST_SPAN`.
+        ``(low, high)`` bounds (m) on the waists; default :func:`default_bounds`.
     map_points : int
         Points per axis of the power x waist map; 0 for none.
     power_range : tuple, optional
         ``(low, high)`` powers (W) of the map; default the least power divided
         and multiplied by :data:`MAP_POWER_SPAN`, widened to the setup's power.
     progress : Progress, optional
+    report : callable, optional
+        Called with one line of plain text per early answer.
+    waists : bool
+        ``False`` skips the waist searches (least power at the setup's waist only).
 
     Returns
     -------
@@ -467,36 +655,98 @@ def size(setup, beam, F, executor=None, power=None, along=None, across=None,
         raise InputError(f"power must be >= 0 mW, got {power * 1e3:g}", setup.path, "--power")
     if power_range is not None and not 0 < power_range[0] < power_range[1]:
         raise InputError("power range must be 0 < MIN < MAX", setup.path, "--power-range")
+    report = report or (lambda text: None)
     b = setup.beam(beam)
-    along = _bounds(b.waist, along, "--waist-range")
-    across = _bounds(b.waist_across, across, "--waist-across-range")
+    d_along, d_across = default_bounds(setup, beam)
+    along = _bounds(along, d_along, "--waist-range", setup.path)
+    across = _bounds(across, d_across, "--waist-across-range", setup.path)
+    axes = sum(hi > lo for lo, hi in (along, across))
+    workers = getattr(executor, "workers", 1)
 
-    if progress is not None:  # a typical count, so that the time left means something
-        axes = sum(hi > lo for lo, hi in (along, across))
-        progress.remaining_at_least(TYPICAL_SEARCH + WAIST_GRID**axes + 4 * axes * 6
-                                    + map_points**2)
-    batcher = Batcher(executor, progress)
     limit = branching_limit(setup)
-    (search,) = batcher.drive([least_power_search(setup, beam, F)])
+    report(f"branching limit at unlimited power and time: {limit.fraction:.5f}")
+    by_branching = F > limit.fraction
+    if by_branching:
+        report(f"F = {F:g} is above it: out of reach at any power and waist (no waist search)")
+        waists = False
+    if progress is not None:  # the plan, so that the time left is steady from the start
+        progress.remaining_at_least(3 + sum(plan_counts(axes, map_points, waists)))
+    batcher = Batcher(executor, progress)
+
+    def on_ceiling(ceil, pc):
+        report(f"ceiling at unlimited power, this waist and transit: {ceil.transfer_fraction:.5f}"
+               f" (a limit computed at {pc * 1e3:.4g} mW, not a proposed power)")
+
+    (search,) = batcher.drive([least_power_search(setup, beam, F, on_ceiling)])
+    # time of a simulation with the beam on (the zero-power one is much quicker)
+    seconds_each = float(np.mean([o.seconds for o in (search.ceiling, search.outcome)
+                                  if o is not None]))
+    if search.reachable:
+        report(f"least power for F at this waist: {search.power * 1e3:.4g} mW "
+               f"(re-simulated {search.outcome.transfer_fraction:.5f})")
+    elif not by_branching:
+        report(f"F = {F:g} is out of reach at this waist even at unlimited power")
+    joint_start = search if search.reachable and search.power > 0 else None
+    setup_start = setup  # the waists the joint search starts from
+    waists = waists and axes > 0
+    if waists and not search.reachable:  # transit-limited here: try the longest transit
+        big = with_waists(setup, beam, along[1], across[1])
+        (wide,) = batcher.drive([least_power_search(big, beam, F)])
+        if wide.reachable:
+            setup_start, joint_start = big, wide
+            report(f"at the largest waists ({along[1] * 1e3:.3g} x {across[1] * 1e3:.3g} mm) "
+                   f"F is reached with {wide.power * 1e3:.4g} mW: searching the waists")
+        else:
+            report(f"even at the largest waists ({along[1] * 1e3:.3g} x {across[1] * 1e3:.3g} "
+                   f"mm) the ceiling is {wide.ceiling.transfer_fraction:.5f}: out of reach "
+                   "within these bounds (no waist search)")
+            waists = False
+    cost = cost_text(seconds_each, workers, axes, map_points, waists and joint_start is not None,
+                     setup.numerics.tolerance)
+    if cost:
+        report(cost)
+
+    gens = []
+    if waists and joint_start is not None:
+        gens.append(joint_search(setup_start, beam, F, along, across, joint_start))
     proposed = search.power if search.reachable and search.power > 0 else b.power
-    wpower = proposed if power is None else power
-    gens = [best_waist_search(setup, beam, wpower, along, across)] if wpower > 0 else []
+    if waists and power is not None and power > 0:
+        gens.append(best_waist_search(setup, beam, power, along, across))
+    answers = batcher.drive(gens)
+    joint = answers.pop(0) if waists and joint_start is not None else None
+    if joint is not None:
+        report(f"least power over waists: {joint.power * 1e3:.4g} mW at {joint.waist * 1e3:.4g}"
+               f" mm along x {joint.waist_across * 1e3:.4g} mm across (re-simulated "
+               f"{joint.outcome.transfer_fraction:.5f})")
+    if waists and power is not None and power > 0:
+        waist = answers.pop(0)
+    elif joint is not None and joint_start is search:
+        waist = joint.first_waist  # the best waists at the least power at this waist
+    else:
+        waist = None
     grid = None
     if map_points:
-        centre = proposed if proposed > 0 else search.ceiling_power * 1e-3
+        centre = (joint.power if joint is not None else
+                  proposed if proposed > 0 else search.ceiling_power * 1e-3)
         plo, phi = power_range or (centre / MAP_POWER_SPAN, centre * MAP_POWER_SPAN)
         if power_range is None and b.power > 0:  # show the setup's own operating point
             plo, phi = min(plo, b.power), max(phi, b.power)
-        grid = {"power": np.geomspace(plo, phi, map_points),
-                "waist": np.geomspace(along[0], along[1], map_points)}
-        gens.append(map_search(setup, beam, grid["power"], grid["waist"]))
-    answers = batcher.drive(gens)
-    waist = answers.pop(0) if wpower > 0 else None
-    if grid is not None:
-        grid["fraction"] = answers.pop(0)
-    limited_by, reason = explain(setup, beam, F, search, limit)
-    shown = [search.power, wpower, search.ceiling_power] + (
+        powers = np.geomspace(plo, phi, map_points)
+        rows = np.geomspace(along[0], along[1], map_points)
+        if joint is not None and plo <= joint.power <= phi:  # the optimum on the grid
+            powers = _with_point(powers, joint.power)  # itself, so that the F contour
+            rows = _with_point(rows, joint.waist)  # passes through its marker
+        grid = {"power": powers, "waist": rows,
+                "across": joint.waist_across if joint is not None else b.waist_across}
+        (grid["fraction"],) = batcher.drive([map_search(setup, beam, grid["power"],
+                                                        grid["waist"], grid["across"])])
+    limited_by, reason = (None, None) if joint is not None else explain(
+        setup, beam, F, search, limit)
+    # cautions for the powers shown or proposed as operating points; the ceiling's
+    # power is a numerical limit, not a proposal
+    shown = [search.power, proposed, power] + (
+        [joint.power] if joint is not None else []) + (
         [grid["power"][-1]] if grid is not None else [])
-    return Sizing(setup, beam, F, search, limit, waist, grid, limited_by, reason,
+    return Sizing(setup, beam, F, search, limit, waist, joint, grid, limited_by, reason,
                   batcher.simulations, batcher.unconverged,
-                  shown_cautions(setup, beam, shown))
+                  shown_cautions(setup, beam, shown), (along, across))

@@ -231,6 +231,9 @@ def test_a_spent_rule_ladder_stops_refinement_on_its_best_rule(tmp_path, monkeyp
            "width_rms_mm": 2.0, "divergence_rms_mrad": 4.0}
     setup = write_case(tmp_path, source=src, power_mW=20.0, tolerance=1e-4)
     monkeypatch.setitem(ensemble.LADDERS, "offset", (2, 4, 8))
+    # and keep the Gauss-Hermite rules: the probe check would replace them by panels at
+    # the beam, which converge here
+    monkeypatch.setattr(ensemble.EnsembleIntegrator, "check_offset_rules", lambda self, z: None)
     r = pumpsim.simulate(setup)
     n = r.numerics
     assert not n.converged and n.offset_nodes == 4
@@ -405,3 +408,18 @@ def test_metastable_decay_in_a_long_drift_matches_exp(tmp_path):
     m1 = pumpsim.simulate(drift).transfer_fraction
     assert m1 == pytest.approx(m0 * math.exp(-0.5 / 500.0 / 1e-3), rel=1e-6)
 
+
+
+def test_a_spent_rule_ladder_is_named_as_the_reason(tmp_path, monkeypatch):
+    # Where the largest rule of a ladder alone misses the tolerance, more nodes cannot
+    # help: the warning must say so, not advise raising numerics.max_nodes.
+    src = {"kind": "monoenergetic", "speed_m_s": 500.0, "initial": {"g": 1.0},
+           "width_rms_mm": 2.0, "divergence_rms_mrad": 4.0}
+    setup = write_case(tmp_path, source=src, power_mW=20.0, tolerance=1e-4)
+    monkeypatch.setitem(ensemble.LADDERS, "offset", (2, 4, 8))
+    monkeypatch.setattr(ensemble.EnsembleIntegrator, "check_offset_rules", lambda self, z: None,
+                        raising=False)
+    n = pumpsim.simulate(setup).numerics
+    (warning,) = n.warnings()
+    assert n.limited_by == "rules"
+    assert "largest size" in warning and "max_nodes" not in warning

@@ -15,7 +15,7 @@ import pytest
 from scipy import integrate
 
 from pumpsim import ensemble
-from pumpsim.quadrature import half_normal_rule, normal_rule
+from pumpsim.quadrature import ANGLE_HERMITE_MAX, angle_rule, half_normal_rule, normal_rule
 
 SIGMA = 1.0  # unitless: pytest.approx's absolute floor of 1e-12 would swamp mm^4
 
@@ -58,3 +58,15 @@ def test_offset_rules_converge_on_a_saturating_knee(x0, ratio):
 def test_panel_rules_need_whole_panels():
     with pytest.raises(ValueError, match="multiple of 8"):
         half_normal_rule(12, SIGMA)
+
+
+@pytest.mark.parametrize("n", [n for n in ensemble.LADDERS["angle"] if n > ANGLE_HERMITE_MAX])
+def test_angle_panel_rules_reproduce_normal_moments(n):
+    # The panels stop at 6.5 sigma. What the moments lose beyond (closed forms of the
+    # normal tail): E[a^2] 2 phi(6.5) 6.5 + 2 Q(6.5) = 3.6e-9, E[a^4]
+    # 2 phi(6.5) (6.5^3 + 3 * 6.5) + 6 Q(6.5) = 1.6e-7 (5.2e-8 of 3).
+    a, w = angle_rule(n, SIGMA)
+    assert w.sum() == pytest.approx(1.0, rel=1e-14)
+    assert w @ a == pytest.approx(0.0, abs=1e-15 * SIGMA)
+    assert w @ a**2 == pytest.approx(SIGMA**2, rel=1e-8)
+    assert w @ a**4 == pytest.approx(3 * SIGMA**4, rel=1e-7)

@@ -1,4 +1,4 @@
-"""Command-line contract of size, compare and scan (files.md and issue 3, item 8):
+"""Command-line contract of size, compare and scan (files.md):
 one JSON object on stdout, exit codes 0 / 2, HDF5 layout, figures (common
 practice, no source)."""
 
@@ -34,7 +34,10 @@ def test_size_json_contract_and_plot(tmp_path, capsys):
     assert d["best_waist_across_mm"] == pytest.approx(0.5)
     assert any("Laser safety" in c for c in d["cautions"])
     assert "CAUTION" in err
-    assert np.array(d["map"]["transfer_fraction"]).shape == (3, 3)
+    m = d["map"]  # 3 x 3, plus the least power over waists and its waist along
+    assert np.array(m["transfer_fraction"]).shape == (len(m["waist_mm"]), len(m["power_mW"]))
+    assert len(m["power_mW"]) in (3, 4) and d["joint_power_mW"] == pytest.approx(
+        min(m["power_mW"], key=lambda p: abs(p - d["joint_power_mW"])))
     assert (tmp_path / "size.png").read_bytes()[:4] == b"\x89PNG"
 
 
@@ -161,3 +164,18 @@ def test_progress_bar_shows_time_left(monkeypatch):
     assert lines[0].startswith("scan: [") and "1/4" in lines[0] and "left" in lines[0]
     assert "2/4" in lines[-2] and "2/2" in lines[-1]  # finished: estimate replaced by count
     assert progress.clock(75) == "1m15s" and progress.clock(4000) == "1h06m"
+
+
+def test_size_without_waist_search_and_quick_lines(tmp_path, capsys):
+    # --no-waist-search: least power at this waist, ceiling and branching limit only;
+    # the quick answers reach stderr, the ceiling's power called a limit (common
+    # practice, no source).
+    setup = three_level(tmp_path)
+    code, out, err = run(capsys, "size", setup.path, "--target-fraction", 0.5, "--map", 0,
+                         "--no-waist-search", "--workers", 1, "--json")
+    assert code == 0
+    d = json.loads(out)
+    assert d["power_mW"] > 0 and d["joint_power_mW"] is None and d["best_waist_mm"] is None
+    assert d["simulations"] <= 15
+    assert "branching limit at unlimited power and time: 0.60000" in err
+    assert "not a proposed power" in err

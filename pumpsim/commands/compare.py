@@ -1,6 +1,6 @@
 """``pumpsim compare SETUP --beam NAME``: every line out of the beam's lower level, ranked."""
 
-from ..routes import all_cautions, compare, route_curves
+from ..routes import RANK_BY, all_cautions, compare, route_curves
 from .common import add_setup_arguments, print_json, setup_from_args, status
 from .parallel import (add_batch_arguments, check_plot_path, executor_from_args,
                        pick_beam, progress)
@@ -20,6 +20,10 @@ def add_parser(sub):
                    help=f"transfer fraction to size each route for (default {DEFAULT_F})")
     p.add_argument("--routes", metavar="UPPER,...",
                    help="compare only these upper levels, e.g. e1,e3")
+    p.add_argument("--rank-by", choices=list(RANK_BY), default="power",
+                   help="order of the routes that reach F: least power (default), fewest "
+                        "photons per atom, smallest deflection, or visible lines before "
+                        "ultraviolet ones")
     add_batch_arguments(p, handle)
 
 
@@ -30,27 +34,28 @@ def handle(args):
     chosen = [x.strip() for x in args.routes.split(",") if x.strip()] if args.routes else None
     F = args.target_fraction
     with executor_from_args(args, setup.path) as ex, progress(f"compare ({ex.describe()})") as bar:
-        routes = compare(setup, beam, F, ex, chosen, bar)
+        routes = compare(setup, beam, F, ex, chosen, bar, args.rank_by)
         curves = route_curves(setup, routes, ex, bar) if args.plot else None
     warnings = all_cautions(routes)
     if args.plot:
         from ..plots import plot_compare
 
-        plot_compare(setup, routes, F, curves, args.plot)
+        plot_compare(setup, routes, F, curves, args.plot, args.rank_by)
     if args.json:
         print_json({"beam": beam, "lower": setup.beam(beam).lower, "target": setup.target,
-                    "target_fraction": F, "routes": [r.to_dict() for r in routes],
+                    "target_fraction": F, "rank_by": args.rank_by,
+                    "routes": [r.to_dict() for r in routes],
                     "cautions": warnings})
         for c in warnings:
             status("CAUTION: " + c)
     else:
-        print(summary(setup, beam, F, routes, warnings))
+        print(summary(setup, beam, F, routes, warnings, args.rank_by))
     if args.plot:
         status(f"wrote {args.plot}")
     return 0
 
 
-def summary(setup, beam, F, routes, warnings):
+def summary(setup, beam, F, routes, warnings, rank_by="power"):
     """Readable table of ranked routes."""
     b = setup.beam(beam)
     out = [f"setup   {setup.path}",
@@ -72,6 +77,7 @@ def summary(setup, beam, F, routes, warnings):
         out += ["", "WARNING: some of these simulations did not meet the numerical tolerance"]
     out += ["", "power: least power reaching F at the setup's waist (re-simulated); ceiling: "
                 "unlimited power, this transit; limit: unlimited power and time.",
-            "ranked: routes reaching F first, by least power; then by ceiling."]
+            f"ranked: routes reaching F first, by {RANK_BY[rank_by]}; then by ceiling. The "
+            "ceiling's power is a numerical limit, not a proposed power."]
     out += [""] + ["CAUTION: " + c for c in warnings]
     return "\n".join(out)

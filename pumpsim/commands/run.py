@@ -6,12 +6,12 @@ from ..lines import line
 from ..outpaths import OutputError, OutputLock, check_output
 from ..progress import RunProgress
 from ..plausible import result_notices
-from ..probe import measurement_report, wants_report
+from ..probe import measurement_report, measurement_summary, wants_report
 from ..safety import cautions
 from ..simulate import simulate
 from ..sublevel_report import sublevel_summary
-from ..probe import measurement_summary
 from .common import add_setup_arguments, command_line, print_json, setup_from_args, status
+from .parallel import check_plot_path
 
 NODES_GUESS = 10_000  # ensemble nodes a run's file is sized for before the run (typical)
 
@@ -22,12 +22,15 @@ def add_parser(sub):
                                    "populations, photons and deflection per beam.")
     add_setup_arguments(p, optional=True)
     p.add_argument("--out", metavar="FILE.h5", help="also write the full result to HDF5")
+    p.add_argument("--plot", metavar="FILE", help="also draw the populations along z "
+                                                   "(.png, .svg or .pdf)")
     p.set_defaults(handler=handle)
 
 
 def handle(args):
     setup = setup_from_args(args)
     command = command_line()
+    check_plot_path(args, setup)
     if args.out:
         check_output(args.out, file_estimate(setup), setup.path)
     with OutputLock(args.out, command, setup.path) if args.out else nullcontext():
@@ -43,12 +46,17 @@ def handle(args):
                 write_result(args.out, result, command, measured)
             except OutputError as exc:  # the numbers are shown all the same, below
                 failed = exc
+    if args.plot:
+        from ..plots import plot_profile
+
+        plot_profile(result, args.plot, cautions(setup))
     show(args, setup, result, measured)
     if failed is not None:
         raise OutputError(f"{failed}; the result above was computed but not saved, and "
                           "nothing was left at that path")
-    if args.out:
-        status(f"wrote {args.out}")
+    for path in (args.out, args.plot):
+        if path:
+            status(f"wrote {path}")
     return 0
 
 
@@ -108,6 +116,7 @@ def summary(result):
             f"{b.power * 1e3:11.4g} {info[b.name]['peak_intensity_mW_cm2']:16.4g} "
             f"{info[b.name]['saturation_parameter']:8.3g} {result.photons_per_atom[b.name]:13.4f} "
             f"{result.deflection[b.name] * 1e3:18.5f}")
+    lines += [""] + figures_table(result.beam_figures())
     if result.sublevels is not None:
         lines += [""] + sublevel_summary(result.sublevels)
     state = "converged" if n.converged else "NOT CONVERGED"
@@ -116,3 +125,18 @@ def summary(result):
               f"{n.seconds:.2f} s"]
     lines += ["WARNING: " + w for w in n.warnings()]
     return "\n".join(lines)
+
+
+def figures_table(figures):
+    """Lines of the per-beam figures (:mod:`pumpsim.beam_figures`), one row each."""
+    from ..beam_figures import UNITS
+
+    names = list(figures)
+    keys = [k for k in UNITS if any(k in figures[n] for n in names)]
+    out = [f"  {'':<52}" + "".join(f"{n:>12}" for n in names)]
+    for k in keys:
+        scale, unit, label = UNITS[k]
+        cells = "".join(f"{figures[n][k] * scale:12.4g}" if k in figures[n] else f"{'':>12}"
+                        for n in names)
+        out.append(f"  {label + ('' if unit == '1' else ' (' + unit + ')'):<52}{cells}")
+    return out

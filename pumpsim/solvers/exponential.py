@@ -74,6 +74,7 @@ class ExponentialPropagator(Propagator):
 
     name = "exponential"
     batched = True
+    exponential = staticmethod(expm_stack)  # of rate generators; a subclass may swap it
 
     def propagate(self, problem, z, reducer=None):
         z = np.asarray(z, dtype=float)
@@ -103,7 +104,7 @@ class ExponentialPropagator(Propagator):
                 wj = np.concatenate([[1.0], w[:, j]])
                 M[:, :r, :r] = _combine(wj * hj, TT).reshape(n, r, r)
                 M[:, :r, r] = yT * hj
-                E = expm_stack(M)
+                E = self.exponential(M)
                 if len(R):
                     y[:, R] += np.einsum("nij,nj->ni", _combine(wj, RT).reshape(n, len(R), r),
                                          E[:, :r, r])
