@@ -77,7 +77,7 @@ def test_run_json_keys_and_values(capsys, setup_path):
         assert data["deflection_mrad"][name] == pytest.approx(1e3 * rad, rel=1e-12)
         assert data["photons_per_atom"][name] == pytest.approx(result.photons_per_atom[name],
                                                                rel=1e-12)
-    # cautions for the powers shown go to stderr when stdout carries JSON (RULES.md 5)
+    # cautions for the powers shown go to stderr when stdout carries JSON
     assert "laser-safety" in err
 
 

@@ -3,7 +3,7 @@
 Conservation: the rate equations move population between levels and into ``other`` and
 never create or destroy it, so the populations sum to 1 and stay non-negative (a property
 of any rate-equation generator: zero column sums, non-negative off-diagonal; common
-practice, no source). The issue sets the bar: sums within 1e-10, nothing below -1e-12,
+practice, no source). The bar: sums within 1e-10, nothing below -1e-12,
 for decay rate x transit time up to 1e6 and powers from 1e-9 mW to 10 W.
 
 Convergence: the contract promises 1e-4 absolute in population at default numerics; a run

@@ -4,8 +4,7 @@ Every result carries a conservation check and an error estimate; a run that
 cannot meet its tolerance says so and by how much; and inputs at the ends of
 what a lab uses (1e-9 mW to 10 W, 1 um to 50 mm waists, 10 K to 3000 K
 sources, lifetimes from 1 ns to stable) run with populations that are never
-negative beyond 1e-12 and sum to 1 within 1e-9 at every node (the figures
-of the hardening issue).
+negative beyond 1e-12 and sum to 1 within 1e-9 at every node.
 
 References outside the project:
 - a per-atom ``scipy.integrate.solve_ivp`` (Radau) solution of the rate

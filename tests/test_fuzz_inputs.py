@@ -312,7 +312,7 @@ def assert_physical(out):
     """A run's JSON is a physical result, or says plainly that it is not converged.
 
     Populations are finite, not negative beyond 1e-12 and sum to 1 within
-    1e-9 (the issue's figures); a run whose nodes do not conserve to 1e-9 must
+    1e-9; a run whose nodes do not conserve to 1e-9 must
     report ``converged: false`` with a warning that says by how much.
     """
     res = json.loads(out)

@@ -37,7 +37,7 @@ def rb_setup(beams, **top):
 def test_isotropic_sublevels_reduce_to_level_mode(solver):
     # model.md: level mode assumes evenly filled sublevels under isotropic light; sublevel
     # mode with "unpolarized" (isotropic) light, no field and no hyperfine structure must
-    # reproduce it summed over sublevels (issue 5, item 4: to 1e-6)
+    # reproduce it summed over sublevels (to 1e-6)
     level = quick_demo().with_value("numerics.solver", solver)
     sub = level.with_value("mode", "sublevel")
     a, b = pumpsim.simulate(level), pumpsim.simulate(sub)
