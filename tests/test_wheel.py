@@ -39,6 +39,11 @@ def test_the_wheel_carries_the_demo_setups_and_schemes(wheel):
     for f in ("pumpsim/demo_data/demo_setup.toml", "pumpsim/demo_data/rb87_optical_pumping.toml",
               "pumpsim/schemes/veridium.toml", "pumpsim/schemes/rb87.toml"):
         assert f in names
+    # every module of the source tree, so that a new subpackage cannot be left out
+    modules = {f"pumpsim/{p.relative_to(ROOT / 'pumpsim').as_posix()}"
+               for p in (ROOT / "pumpsim").rglob("*.py")}
+    modules |= {f"pumpsim_gui/{p.name}" for p in (ROOT / "gui").glob("*.py")}
+    assert modules - set(names) == set()
 
 
 def test_pumpsim_run_works_from_a_fresh_environment_holding_only_the_wheel(wheel, tmp_path):
