@@ -57,6 +57,9 @@ class ProcessExecutor(Executor):
             self._pool = cf.ProcessPoolExecutor(self.workers, mp_context=_start_method(),
                                                 initializer=_worker_start,
                                                 initargs=(os.getpid(),))
+            future = self._pool.submit(fn, *args)  # starts the pool's manager thread
+            _quiet_manager(self._pool._executor_manager_thread)
+            return future
         return self._pool.submit(fn, *args)
 
     def shutdown(self, now=False):
@@ -72,6 +75,21 @@ class ProcessExecutor(Executor):
             p.terminate()
         for p in processes:
             p.join()
+
+
+def _quiet_manager(thread):
+    """Keep the pool's manager thread from printing a traceback when a stop ends the
+    workers: it then marks every unfinished future broken, and those already cancelled
+    raise ``InvalidStateError`` in that thread (a race in Python's own
+    ``concurrent.futures`` up to 3.11). Nothing is lost: those futures were cancelled,
+    and the process is stopping. Other threads' errors are printed as before."""
+    previous = threading.excepthook
+
+    def hook(args):
+        if args.thread is not thread or not issubclass(args.exc_type, cf.InvalidStateError):
+            previous(args)
+
+    threading.excepthook = hook
 
 
 def _start_method():
