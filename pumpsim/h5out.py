@@ -61,7 +61,16 @@ def h5_bytes(fill) -> bytes:
     return buf.getvalue()
 
 
-def write_result(path, result, command=""):
+def write_measurement(f, measured):
+    """Group ``measurement`` (docs/measurement.md): one attribute per reported number,
+    probes in subgroups ``probes/NAME``."""
+    g = f.create_group("measurement")
+    for name, rec in measured.get("probes", {}).items():
+        g.require_group("probes").create_group(name).attrs.update(rec)
+    g.create_group("next_stage").attrs.update(measured["next_stage"])
+
+
+def write_result(path, result, command="", measured=None):
     """Write one simulation result to ``path`` whole, or nothing.
 
     Parameters
@@ -70,16 +79,18 @@ def write_result(path, result, command=""):
     result : Result
     command : str
         The command line that produced it, stored as an attribute.
+    measured : dict, optional
+        Probe signals and the next stage (:func:`pumpsim.probe.measurement_report`).
 
     Raises
     ------
     OutputError
         If the file could not be written (nothing is left at ``path``).
     """
-    commit(path, h5_bytes(lambda f: fill_result(f, result, command)), "the result file")
+    commit(path, h5_bytes(lambda f: fill_result(f, result, command, measured)), "the result file")
 
 
-def fill_result(f, result, command):
+def fill_result(f, result, command, measured=None):
     """The layout of a run's file (README), into the open file ``f``."""
     setup = result.setup
     beams = [b.name for b in setup.beams]
@@ -124,6 +135,8 @@ def fill_result(f, result, command):
     n.attrs["beams"] = beams
     if result.sublevels is not None:  # sublevel mode (docs/sublevel.md)
         write_sublevels(f, result.sublevels)
+    if measured is not None:
+        write_measurement(f, measured)
     num = f.create_group("numerics")
     for k, v in result.numerics.to_dict().items():
         if isinstance(v, dict):

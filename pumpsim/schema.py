@@ -142,6 +142,9 @@ SOURCE_FIELDS = (
        "divergence (rms)", low=0.0, high=500.0, span=(0.0, 50.0)),
     _f("source", "width_rms_mm", "width_rms", "mm", MM, 0.0, "beam size across laser (rms)",
        low=0.0, high=ROOM_MM, span=(0.0, 10.0)),
+    # measurement (docs/measurement.md): atoms per second leaving the source
+    _f("source", "flux_per_s", "flux", "atoms/s", 1.0, None, "source flux",
+       low=0.0, high=1e30, span=(1e6, 1e16), log=True),
 )
 
 BEAM_FIELDS = (
@@ -167,6 +170,18 @@ BEAM_FIELDS = (
        "polarization (to the field axis)", kind=Polarization, choices=POLARIZATIONS),
     _f("beam", "reference_F", "reference_F", "", 1, None,
        "detuning from hyperfine line [F, F']", kind=Component),
+    # measurement (docs/measurement.md): a probe's fluorescence reaches a detector
+    _f("beam", "role", "role", "", 1, "pump", "role: pump (acts) or probe (is watched)",
+       kind=str, choices=("pump", "probe")),
+    _f("beam", "collection_sr", "collection_sr", "sr", 1.0, None,
+       "probe light collected: solid angle", low=0.0, high=4 * math.pi, low_open=True,
+       span=(0.01, 4 * math.pi), log=True),
+    _f("beam", "collection_NA", "collection_NA", "", 1.0, None,
+       "probe light collected: numerical aperture", low=0.0, high=1.0, low_open=True,
+       span=(0.01, 1.0)),
+    _f("beam", "detection_efficiency", "detection_efficiency", "", 1.0, None,
+       "probe detection efficiency (optics and detector)", low=0.0, high=1.0, low_open=True,
+       span=(0.001, 1.0), log=True),
     # density-matrix model (docs/coherent.md); the rate equations ignore it
     _f("beam", "phase_group", "phase_group", "", 1, None,
        "phase-related group (sidebands of one laser)", kind=str),
@@ -199,7 +214,20 @@ NUMERICS_FIELDS = (
        choices=("on", "off")),
 )
 
-FIELDS = SOURCE_FIELDS + BEAM_FIELDS + NUMERICS_FIELDS + MODE_FIELDS
+# measurement (docs/measurement.md): what the next stage (a trap, a slower) accepts
+NEXT_STAGE_FIELDS = (
+    _f("next_stage", "capture_speed_m_s", "capture_speed", "m/s", 1.0, None,
+       "slowest atoms the next stage captures: below this speed", low=0.0, high=1e7,
+       low_open=True, span=(1.0, 1000.0), log=True),
+    _f("next_stage", "aperture_mm", "aperture", "mm", MM, None,
+       "next stage's aperture (radius)", low=0.0, high=ROOM_MM, low_open=True,
+       span=(0.1, 50.0), log=True),
+    _f("next_stage", "aperture_distance_mm", "aperture_distance", "mm", MM, None,
+       "aperture's distance downstream of the pump", low=0.0, high=ROOM_MM, low_open=True,
+       span=(1.0, 2000.0), log=True),
+)
+
+FIELDS = SOURCE_FIELDS + BEAM_FIELDS + NUMERICS_FIELDS + MODE_FIELDS + NEXT_STAGE_FIELDS
 
 
 def fields_of(table: str) -> tuple:

@@ -30,6 +30,8 @@ class Source:
         rms angle in the plane of atomic beam and lasers, rad.
     width_rms : float
         rms size of the atomic beam along y (across the lasers), m.
+    flux : float or None
+        Atoms per second leaving the source (docs/measurement.md).
     initial : str or tuple
         ``"thermal"`` or ``((level_id, fraction), ...)`` summing to 1.
     """
@@ -41,6 +43,7 @@ class Source:
     divergence_rms: float
     width_rms: float
     initial: object = "thermal"
+    flux: float | None = None
 
 
 @dataclass(frozen=True)
@@ -71,6 +74,11 @@ class Beam:
     reference_F : Component or None
         Hyperfine component ``F -> F'`` that ``detuning`` is measured from
         (``None``: from the line's centroid, the contract's default).
+    role : str
+        ``"pump"`` or ``"probe"`` (a beam whose fluorescence is detected).
+    collection_sr, collection_NA, detection_efficiency : float or None
+        A probe's collection (solid angle, sr, or numerical aperture) and
+        detection efficiency (docs/measurement.md).
     phase_group : str or None
         Beams sharing a group are phase-related (sidebands of one laser): the
         density-matrix model keeps their Raman coherences (docs/coherent.md).
@@ -89,7 +97,28 @@ class Beam:
     passes: int = 1
     polarization: Polarization = Polarization()
     reference_F: object = None
+    role: str = "pump"
+    collection_sr: float | None = None
+    collection_NA: float | None = None
+    detection_efficiency: float | None = None
     phase_group: str | None = None
+
+
+@dataclass(frozen=True)
+class NextStage:
+    """What the stage downstream accepts (docs/measurement.md); ``None``: no limit.
+
+    Parameters
+    ----------
+    capture_speed : float or None
+        Atoms slower than this are captured, m/s.
+    aperture, aperture_distance : float or None
+        Radius of an aperture and its distance downstream of the pump, m.
+    """
+
+    capture_speed: float | None = None
+    aperture: float | None = None
+    aperture_distance: float | None = None
 
 
 @dataclass(frozen=True)
@@ -147,6 +176,8 @@ class Setup:
         ``"level"`` (the contract's model) or ``"sublevel"`` (docs/sublevel.md).
     magnetic_field : float
         Field along the quantization axis, T (sublevel mode).
+    next_stage : NextStage
+        Capture speed and aperture of the stage downstream.
     """
 
     scheme: Scheme
@@ -159,6 +190,7 @@ class Setup:
     text: str | None = field(default=None, compare=False, repr=False)
     mode: str = "level"
     magnetic_field: float = 0.0
+    next_stage: NextStage = NextStage()
 
     @property
     def goal(self):

@@ -17,12 +17,12 @@ from .model import z_range
 from .plausible import check_driven_line
 from .schema import FIELDS, REQUIRED, fields_of
 from .scheme_file import load_scheme
-from .setup import Beam, Numerics, Setup, Source
+from .setup import Beam, NextStage, Numerics, Setup, Source
 from .targets import TargetError, parse_target
 from .tomlread import check_keys, read_toml, table_list, text
 from .tomltext import dumps, restyle
 
-TOP_KEYS = {"scheme", "target", "source", "beam", "numerics", "mode", "field"}
+TOP_KEYS = {"scheme", "target", "source", "beam", "numerics", "mode", "field", "next_stage"}
 INITIAL_SUM_SLACK = 1e-6  # explicit initial populations must sum to 1 within this
 NEEDS = {  # which optional source fields each kind requires
     "effusive": ("temperature_K",),
@@ -90,7 +90,40 @@ def setup_from_document(doc: dict, file=None, scheme=None, text_=None) -> Setup:
         raise InputError("names sublevels, which only sublevel mode resolves: add "
                          "mode = \"sublevel\" or target the whole level "
                          f"'{goal.level}'", file, None, "target")
-    return Setup(scheme, target, source, beams, numerics, file, doc, text_, **mode)
+    return Setup(scheme, target, source, beams, numerics, file, doc, text_, **mode,
+                 next_stage=_next_stage(doc, file))
+
+
+def _next_stage(doc, file):
+    """The ``[next_stage]`` table (docs/measurement.md): an aperture needs its distance."""
+    raw = doc.get("next_stage", {})
+    fields = fields_of("next_stage")
+    check_keys(raw, {f.key for f in fields}, file, "next_stage")
+    v = _read_fields(raw, fields, file, "next_stage")
+    for a, b in (("aperture_mm", "aperture_distance_mm"), ("aperture_distance_mm", "aperture_mm")):
+        if a in raw and b not in raw:
+            raise InputError(f"{a} needs {b} too", file, "next_stage", b)
+    return NextStage(**v)
+
+
+PROBE_KEYS = ("collection_sr", "collection_NA", "detection_efficiency")
+
+
+def _check_probe(raw, v, file, table):
+    """A probe names its collection (solid angle or NA, not both) and detection
+    efficiency; a pump names neither (docs/measurement.md)."""
+    if v["role"] == "probe":
+        if ("collection_sr" in raw) == ("collection_NA" in raw):
+            raise InputError("a probe needs exactly one of collection_sr or collection_NA",
+                             file, table, "collection_sr")
+        if "detection_efficiency" not in raw:
+            raise InputError("a probe needs its detection efficiency (0 to 1)", file, table,
+                             "detection_efficiency")
+    else:
+        for key in PROBE_KEYS:
+            if key in raw:
+                raise InputError("only a probe (role = \"probe\") has this key", file, table,
+                                 key)
 
 
 def _target(target, scheme, file):
@@ -207,6 +240,7 @@ def _beam(raw, i, file, scheme):
                          "strength to drive", file, table, "transition", upper)
     check_driven_line(scheme, name, lower, upper, file, table)
     v = _read_fields(raw, fields, file, table)
+    _check_probe(raw, v, file, table)
     if v["reference_F"] is not None:
         def fail(message):
             raise InputError(message, file, table, "reference_F")

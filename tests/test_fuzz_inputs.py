@@ -488,7 +488,17 @@ def _place(doc, f, value):
         doc["source"] = dict(VARIANT.get(f.key, doc["source"]))
         doc["source"][f.key] = value
     elif f.table == "beam":
+        if f.key in ("collection_sr", "collection_NA", "detection_efficiency"):
+            # a probe's keys, on a probe (docs/measurement.md): one collection key
+            doc["beam"][0].update(role="probe", detection_efficiency=0.5)
+            if f.key == "detection_efficiency":
+                doc["beam"][0]["collection_NA"] = 0.2
         doc["beam"][0][f.key] = value
+    elif f.table == "next_stage":  # an aperture comes with its distance
+        stage = doc.setdefault("next_stage", {})
+        if f.key.startswith("aperture"):
+            stage.update(aperture_mm=5.0, aperture_distance_mm=500.0)
+        stage[f.key] = value
     else:
         doc["numerics"][f.key] = value
 
@@ -775,9 +785,10 @@ DOCUMENTED = [  # (kind of bad input, files, extra arguments, exact stderr line)
      "setup.toml [beam]: must be an array of tables written [[beam]]"),
     ("unknown key, wrong unit", _edit("setup", lambda d: d["beam"][0].update(
         power_W=d["beam"][0].pop("power_mW"))), [],
-     "setup.toml [beam 'pump'] key 'power_W': unknown key; did you mean 'power_mW'? (allowed: angle_deg, detuning_MHz, "
-     "linewidth_MHz, name, passes, phase_group, polarization, position_mm, power_mW, reference_F, "
-     "transition, waist_across_mm, waist_mm)"),
+     "setup.toml [beam 'pump'] key 'power_W': unknown key; did you mean 'power_mW'? (allowed: angle_deg, collection_NA, "
+     "collection_sr, detection_efficiency, detuning_MHz, linewidth_MHz, name, passes, "
+     "phase_group, polarization, position_mm, power_mW, reference_F, role, transition, "
+     "waist_across_mm, waist_mm)"),
     ("missing required key", _edit("setup", _drop("beam", 0, "waist_mm")), [],
      "setup.toml [beam 'pump'] key 'waist_mm': missing required key"),
     ("missing table", _edit("setup", _drop("source")), [],
@@ -811,7 +822,7 @@ DOCUMENTED = [  # (kind of bad input, files, extra arguments, exact stderr line)
     ("control character in a key", _edit("setup", lambda d: d["source"].update(
         {"speed\tm_s": 1.0})), [],
      "setup.toml [source] key 'speed\\tm_s': unknown key; did you mean 'speed_m_s'? (allowed: divergence_rms_mrad, "
-     "initial, kind, speed_m_s, speed_spread_m_s, temperature_K, width_rms_mm)"),
+     "flux_per_s, initial, kind, speed_m_s, speed_spread_m_s, temperature_K, width_rms_mm)"),
     ("scheme file missing", _edit("setup", lambda d: d.update(scheme="schemes.toml")), [],
      "setup.toml key 'scheme': scheme file not found: schemes.toml"),
     ("a setup where a scheme belongs", _edit("setup", lambda d: d.update(scheme="setup.toml")),

@@ -15,51 +15,16 @@ Why one BLAS thread: the exponentials are of matrices of a few tens of rows,
 where OpenBLAS's threads cost more in waiting than they save: measured on a
 shared two-core machine, 0.76 against 2.4 ms per 60 x 60 exponential, and
 up to 40 times worse when the cores were busy. The engine's integrators run
-in one thread by design (:mod:`pumpsim.ensemble`); scipy's OpenBLAS is told
-so for the duration of a propagation and restored after (a no-op where that
-library is not found).
+in one thread by design (:mod:`pumpsim.ensemble`); the BLAS libraries are told
+so for the duration of a propagation and restored after, through threadpoolctl.
 """
 
-import contextlib
-import ctypes
-import glob
-import os
-
-import scipy
 from scipy.linalg import expm
+from threadpoolctl import ThreadpoolController
 
 from ..solvers.exponential import ExponentialPropagator
 
-
-def _openblas():
-    """scipy's bundled OpenBLAS with its thread setters, or ``None``."""
-    pattern = os.path.join(os.path.dirname(scipy.__file__), os.pardir, "scipy.libs",
-                           "*openblas*")
-    for path in glob.glob(pattern):
-        try:
-            lib = ctypes.CDLL(path)
-        except OSError:
-            continue
-        if hasattr(lib, "scipy_openblas_set_num_threads"):
-            return lib
-    return None
-
-
-_LIB = _openblas()
-
-
-@contextlib.contextmanager
-def one_blas_thread():
-    """Run the enclosed code with scipy's OpenBLAS on one thread."""
-    if _LIB is None:
-        yield
-        return
-    before = _LIB.scipy_openblas_get_num_threads()
-    _LIB.scipy_openblas_set_num_threads(1)
-    try:
-        yield
-    finally:
-        _LIB.scipy_openblas_set_num_threads(before)
+_BLAS = ThreadpoolController()  # finds the loaded BLAS libraries once
 
 
 class CoherentPropagator(ExponentialPropagator):
@@ -69,5 +34,5 @@ class CoherentPropagator(ExponentialPropagator):
     exponential = staticmethod(expm)
 
     def propagate(self, problem, z, reducer=None):
-        with one_blas_thread():
+        with _BLAS.limit(limits=1, user_api="blas"):
             return super().propagate(problem, z, reducer)

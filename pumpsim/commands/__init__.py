@@ -4,6 +4,6 @@ Each module provides ``add_parser(subparsers)``, which registers the
 subcommand and sets ``handler`` to a function ``handler(args) -> int``.
 """
 
-from . import check, compare, gui, info, run, scan, size
+from . import check, compare, fit, gui, info, probe, run, scan, size
 
-COMMANDS = (run, info, check, size, compare, scan, gui)
+COMMANDS = (run, info, check, size, compare, scan, probe, fit, gui)

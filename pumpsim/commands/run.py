@@ -6,6 +6,7 @@ from ..lines import line
 from ..outpaths import OutputError, OutputLock, check_output
 from ..progress import RunProgress
 from ..plausible import result_notices
+from ..probe import measurement_report, measurement_summary, wants_report
 from ..safety import cautions
 from ..simulate import simulate
 from ..sublevel_report import sublevel_summary
@@ -35,19 +36,21 @@ def handle(args):
     with OutputLock(args.out, command, setup.path) if args.out else nullcontext():
         with RunProgress(setup.numerics.tolerance) as notes:
             result = simulate(setup, progress=notes)
+            # probe signals and the next stage (docs/measurement.md)
+            measured = measurement_report(result, simulate) if wants_report(setup) else None
         failed = None
         if args.out:
             from ..h5out import write_result
 
             try:
-                write_result(args.out, result, command)
+                write_result(args.out, result, command, measured)
             except OutputError as exc:  # the numbers are shown all the same, below
                 failed = exc
     if args.plot:
         from ..plots import plot_profile
 
         plot_profile(result, args.plot, cautions(setup))
-    show(args, setup, result)
+    show(args, setup, result, measured)
     if failed is not None:
         raise OutputError(f"{failed}; the result above was computed but not saved, and "
                           "nothing was left at that path")
@@ -64,7 +67,7 @@ def file_estimate(setup):
     return nodes * columns * 8 + 2 * len(setup.text or "") + (1 << 16)
 
 
-def show(args, setup, result):
+def show(args, setup, result, measured=None):
     """The result on stdout: readable, or one JSON object."""
     warnings = cautions(setup)
     notices = result_notices(result)  # likely slips (plausible.py); also "notices" in JSON
@@ -75,11 +78,15 @@ def show(args, setup, result):
         out["warnings"] = result.numerics.warnings()
         out["cautions"] = warnings
         out["notices"] = [n.to_dict() for n in notices]
+        if measured is not None:
+            out["measurement"] = measured
         print_json(out)
         for w in warnings + ["WARNING: " + n.message for n in notices]:
             status(w)
     else:
         print(summary(result))
+        if measured is not None:
+            print("\n" + measurement_summary(measured))
         for n in notices:
             print("WARNING: " + n.message)
         print()
