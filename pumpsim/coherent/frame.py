@@ -201,7 +201,8 @@ class Frame:
         # links components): centre it, so that nothing in the frame rotates needlessly
         for k in range(fresh):
             members = comp == k
-            energy[members] -= energy[members].mean()
+            if members.any():  # a component number can be left unused by a merge above
+                energy[members] -= energy[members].mean()
         self.energy = energy
 
     def same_frame(self, i, j, k, l) -> bool:
