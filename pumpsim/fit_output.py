@@ -1,11 +1,8 @@
 """What a fit reports: the JSON object, the HDF5 file and the figure (docs/measurement.md)."""
 
-import datetime
-
 import numpy as np
 
-from . import __version__
-from .h5out import STR, h5_bytes, write_inputs
+from .h5out import STR, h5_bytes, write_header
 from .outpaths import commit
 
 
@@ -40,12 +37,7 @@ def fit_report(setup, data, fit, checks, curve=None) -> dict:
 def write_fit(path, setup, data, report, command=""):
     """The fit, its data and inputs to HDF5, whole or not at all."""
     def fill(f):
-        f.attrs["pumpsim_version"] = __version__
-        f.attrs["created_utc"] = datetime.datetime.now(datetime.timezone.utc).isoformat()
-        f.attrs["command"] = command
-        f.attrs["kind"] = "fit"
-        f.attrs["complete"] = False
-        write_inputs(f, setup)
+        write_header(f, setup, command, "fit")
         f["inputs"].create_dataset("data_csv", data=data.text, dtype=STR)
         f["inputs"].attrs["data_path"] = data.path
         d = f.create_group("data")

@@ -26,6 +26,14 @@ def _text(group, name, value):
     group.create_dataset(name, data=value if value is not None else "", dtype=STR)
 
 
+def write_header(f, setup, command, kind, created=None):
+    """Root attributes every file of pumpsim carries (``complete`` false until the
+    writer sets it last) and the inputs it was computed from."""
+    f.attrs.update(pumpsim_version=__version__, command=command, kind=kind, complete=False,
+                   created_utc=created or datetime.datetime.now(datetime.timezone.utc).isoformat())
+    write_inputs(f, setup)
+
+
 def write_inputs(f, setup):
     """Inputs verbatim (setup and scheme files) and as run (after overrides)."""
     g = f.create_group("inputs")
@@ -94,12 +102,7 @@ def fill_result(f, result, command, measured=None):
     """The layout of a run's file (README), into the open file ``f``."""
     setup = result.setup
     beams = [b.name for b in setup.beams]
-    f.attrs["pumpsim_version"] = __version__
-    f.attrs["created_utc"] = datetime.datetime.now(datetime.timezone.utc).isoformat()
-    f.attrs["command"] = command
-    f.attrs["kind"] = "run"
-    f.attrs["complete"] = False
-    write_inputs(f, setup)
+    write_header(f, setup, command, "run")
     r = f.create_group("results")
     r.attrs["target"] = setup.target
     r.attrs["transfer_fraction"] = result.transfer_fraction

@@ -64,10 +64,9 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__
 from .errors import InputError
 from .executors import SerialExecutor, imap_unordered
-from .h5out import h5_bytes, write_inputs
+from .h5out import h5_bytes, write_header
 from .outcome import evaluate
 from .outpaths import OutputError, OutputLock, commit, partial_path, size_text
 from .safety import cautions
@@ -309,10 +308,8 @@ class Scan:
 def scan_bytes(setup, axes, points, command, created, resumed, complete) -> bytes:
     """The HDF5 file of a scan (layout in the module docstring), built in memory."""
     def fill(f):
-        f.attrs.update(kind="scan", pumpsim_version=__version__, command=command,
-                       created_utc=created, shape=points.shape, axes=[a.key for a in axes],
-                       complete=False, points_resumed=resumed)
-        write_inputs(f, setup)
+        write_header(f, setup, command, "scan", created)
+        f.attrs.update(shape=points.shape, axes=[a.key for a in axes], points_resumed=resumed)
         f["inputs"].attrs["vary"] = [a.text for a in axes]
         scales = []
         for d, a in enumerate(axes):
